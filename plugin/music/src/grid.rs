@@ -75,12 +75,36 @@ impl Adjustments {
                 out.push(many.replace("{n}", &n.to_string()));
             }
         };
-        say(self.snapped, "1 note was moved to the nearest grid step.", "{n} notes were moved to the nearest grid step.");
-        say(self.merged, "1 note doubled another on the same step and was merged into it.", "{n} notes doubled others on the same step and were merged.");
-        say(self.clipped_at_bar_line, "1 note rang past its bar line and was cut there.", "{n} notes rang past their bar lines and were cut there.");
-        say(self.dropped_past_end, "1 note started too close to the end to fit and was left out.", "{n} notes started too close to the end to fit and were left out.");
-        say(self.octave_shifted, "1 note was outside the model's pitch range and was moved by octaves into it.", "{n} notes were outside the model's pitch range and were moved by octaves into it.");
-        say(self.overlaps_removed, "1 overlapping note was trimmed because the model plays one note at a time.", "{n} overlapping notes were trimmed because the model plays one note at a time.");
+        say(
+            self.snapped,
+            "1 note was moved to the nearest grid step.",
+            "{n} notes were moved to the nearest grid step.",
+        );
+        say(
+            self.merged,
+            "1 note doubled another on the same step and was merged into it.",
+            "{n} notes doubled others on the same step and were merged.",
+        );
+        say(
+            self.clipped_at_bar_line,
+            "1 note rang past its bar line and was cut there.",
+            "{n} notes rang past their bar lines and were cut there.",
+        );
+        say(
+            self.dropped_past_end,
+            "1 note started too close to the end to fit and was left out.",
+            "{n} notes started too close to the end to fit and were left out.",
+        );
+        say(
+            self.octave_shifted,
+            "1 note was outside the model's pitch range and was moved by octaves into it.",
+            "{n} notes were outside the model's pitch range and were moved by octaves into it.",
+        );
+        say(
+            self.overlaps_removed,
+            "1 overlapping note was trimmed because the model plays one note at a time.",
+            "{n} overlapping notes were trimmed because the model plays one note at a time.",
+        );
         out
     }
 }
@@ -111,8 +135,16 @@ pub fn quantize(phrase: &Phrase, steps_per_measure: usize) -> (Grid, Adjustments
             end = bar_end;
             adj.clipped_at_bar_line += 1;
         }
-        let g = GridNote { pitch: n.pitch, start, steps: end - start, velocity: n.velocity };
-        if let Some(prev) = notes.iter_mut().find(|p| p.start == g.start && p.pitch == g.pitch) {
+        let g = GridNote {
+            pitch: n.pitch,
+            start,
+            steps: end - start,
+            velocity: n.velocity,
+        };
+        if let Some(prev) = notes
+            .iter_mut()
+            .find(|p| p.start == g.start && p.pitch == g.pitch)
+        {
             prev.steps = prev.steps.max(g.steps);
             prev.velocity = prev.velocity.max(g.velocity);
             adj.merged += 1;
@@ -147,7 +179,14 @@ impl Grid {
         let notes = self
             .notes
             .iter()
-            .map(|g| Note::new(g.pitch, g.start as f64 * step, g.steps as f64 * step, g.velocity))
+            .map(|g| {
+                Note::new(
+                    g.pitch,
+                    g.start as f64 * step,
+                    g.steps as f64 * step,
+                    g.velocity,
+                )
+            })
             .collect();
         Phrase::new(self.time_signature, self.measures, notes)
     }
@@ -160,9 +199,17 @@ impl Grid {
             .notes
             .iter()
             .filter(|n| n.start >= lo && n.start < hi)
-            .map(|n| GridNote { start: n.start - lo, steps: n.steps.min(hi - n.start), ..*n })
+            .map(|n| GridNote {
+                start: n.start - lo,
+                steps: n.steps.min(hi - n.start),
+                ..*n
+            })
             .collect();
-        Grid { measures: 1, notes, ..self.clone() }
+        Grid {
+            measures: 1,
+            notes,
+            ..self.clone()
+        }
     }
 
     /// Joins one-measure grids in order.
@@ -171,9 +218,16 @@ impl Grid {
         let mut notes = Vec::new();
         for (i, p) in parts.iter().enumerate() {
             let off = i * first.steps_per_measure;
-            notes.extend(p.notes.iter().map(|n| GridNote { start: n.start + off, ..*n }));
+            notes.extend(p.notes.iter().map(|n| GridNote {
+                start: n.start + off,
+                ..*n
+            }));
         }
-        Some(Grid { measures: parts.len() as u8, notes, ..first.clone() })
+        Some(Grid {
+            measures: parts.len() as u8,
+            notes,
+            ..first.clone()
+        })
     }
 }
 
@@ -198,8 +252,18 @@ mod tests {
         assert_eq!(
             grid.notes,
             vec![
-                GridNote { pitch: 60, start: 0, steps: 4, velocity: 100 },
-                GridNote { pitch: 64, start: 14, steps: 2, velocity: 80 },
+                GridNote {
+                    pitch: 60,
+                    start: 0,
+                    steps: 4,
+                    velocity: 100
+                },
+                GridNote {
+                    pitch: 64,
+                    start: 14,
+                    steps: 2,
+                    velocity: 80
+                },
             ]
         );
         assert_eq!(adj.merged, 1);
@@ -212,7 +276,11 @@ mod tests {
     #[test]
     fn grid_round_trips_through_phrase() {
         let ts = TimeSignature::new(6, 8).unwrap();
-        let phrase = Phrase::new(ts, 2, vec![Note::new(62, 0.5, 0.25, 70), Note::new(65, 3.0, 1.5, 90)]);
+        let phrase = Phrase::new(
+            ts,
+            2,
+            vec![Note::new(62, 0.5, 0.25, 70), Note::new(65, 3.0, 1.5, 90)],
+        );
         let (grid, adj) = quantize(&phrase, 12);
         assert!(adj.is_empty());
         assert_eq!(grid.to_phrase(), phrase);

@@ -26,7 +26,10 @@ pub enum MeterError {
 }
 
 impl TimeSignature {
-    pub const FOUR_FOUR: TimeSignature = TimeSignature { numerator: 4, denominator: 4 };
+    pub const FOUR_FOUR: TimeSignature = TimeSignature {
+        numerator: 4,
+        denominator: 4,
+    };
 
     /// A checked time signature: numerator ≥ 1, denominator a power of two up to 32.
     pub fn new(numerator: u8, denominator: u8) -> Result<Self, MeterError> {
@@ -36,7 +39,10 @@ impl TimeSignature {
         if !matches!(denominator, 1 | 2 | 4 | 8 | 16 | 32) {
             return Err(MeterError::BadDenominator(denominator));
         }
-        Ok(Self { numerator, denominator })
+        Ok(Self {
+            numerator,
+            denominator,
+        })
     }
 
     /// Length of one measure in quarter-note beats.
@@ -142,10 +148,22 @@ mod tests {
 
     #[test]
     fn quarters_per_measure_follows_the_signature() {
-        assert_eq!(TimeSignature::new(4, 4).unwrap().quarters_per_measure(), 4.0);
-        assert_eq!(TimeSignature::new(6, 8).unwrap().quarters_per_measure(), 3.0);
-        assert_eq!(TimeSignature::new(7, 8).unwrap().quarters_per_measure(), 3.5);
-        assert_eq!(TimeSignature::new(2, 2).unwrap().quarters_per_measure(), 4.0);
+        assert_eq!(
+            TimeSignature::new(4, 4).unwrap().quarters_per_measure(),
+            4.0
+        );
+        assert_eq!(
+            TimeSignature::new(6, 8).unwrap().quarters_per_measure(),
+            3.0
+        );
+        assert_eq!(
+            TimeSignature::new(7, 8).unwrap().quarters_per_measure(),
+            3.5
+        );
+        assert_eq!(
+            TimeSignature::new(2, 2).unwrap().quarters_per_measure(),
+            4.0
+        );
     }
 
     #[test]

@@ -18,7 +18,12 @@ pub struct Note {
 
 impl Note {
     pub fn new(pitch: u8, onset: f64, duration: f64, velocity: u8) -> Self {
-        Self { pitch, onset, duration, velocity }
+        Self {
+            pitch,
+            onset,
+            duration,
+            velocity,
+        }
     }
 
     /// End of the note, in beats from the start of the phrase.

@@ -24,11 +24,19 @@ impl Phrase {
         let len = time_signature.quarters_per_measure() * measures as f64;
         notes.retain(|n| n.onset >= 0.0 && n.onset < len - 1e-9 && n.duration > 0.0);
         notes.sort_by(|a, b| a.onset.total_cmp(&b.onset).then(a.pitch.cmp(&b.pitch)));
-        Self { time_signature, measures, notes }
+        Self {
+            time_signature,
+            measures,
+            notes,
+        }
     }
 
     pub fn empty(time_signature: TimeSignature, measures: u8) -> Self {
-        Self { time_signature, measures, notes: Vec::new() }
+        Self {
+            time_signature,
+            measures,
+            notes: Vec::new(),
+        }
     }
 
     /// Length of one measure in beats.
@@ -50,9 +58,16 @@ impl Phrase {
             .notes
             .iter()
             .filter(|n| n.onset >= start - 1e-9 && n.onset < start + len - 1e-9)
-            .map(|n| Note { onset: (n.onset - start).max(0.0), ..*n })
+            .map(|n| Note {
+                onset: (n.onset - start).max(0.0),
+                ..*n
+            })
             .collect();
-        Phrase { time_signature: self.time_signature, measures: 1, notes }
+        Phrase {
+            time_signature: self.time_signature,
+            measures: 1,
+            notes,
+        }
     }
 
     /// Joins single measures one after another into one phrase.
@@ -61,7 +76,10 @@ impl Phrase {
         let mut notes = Vec::new();
         for (i, m) in measures.iter().enumerate() {
             let offset = len * i as f64;
-            notes.extend(m.notes.iter().map(|n| Note { onset: n.onset + offset, ..*n }));
+            notes.extend(m.notes.iter().map(|n| Note {
+                onset: n.onset + offset,
+                ..*n
+            }));
         }
         Phrase::new(time_signature, measures.len() as u8, notes)
     }
@@ -81,9 +99,17 @@ mod tests {
         let p = Phrase::new(
             ts,
             2,
-            vec![Note::new(64, 4.5, 0.5, 90), Note::new(60, 0.0, 1.0, 100), Note::new(67, 9.0, 1.0, 80)],
+            vec![
+                Note::new(64, 4.5, 0.5, 90),
+                Note::new(60, 0.0, 1.0, 100),
+                Note::new(67, 9.0, 1.0, 80),
+            ],
         );
-        assert_eq!(p.notes.len(), 2, "a note after the last bar line is dropped");
+        assert_eq!(
+            p.notes.len(),
+            2,
+            "a note after the last bar line is dropped"
+        );
         assert_eq!(p.notes[0].pitch, 60, "notes are sorted by onset");
         let second = p.measure(1);
         assert_eq!(second.notes, vec![Note::new(64, 0.5, 0.5, 90)]);

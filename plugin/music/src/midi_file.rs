@@ -1,0 +1,487 @@
+//! Reading prompts from, and writing takes to, Standard MIDI Files (SMF 1.0,
+//! MIDI Manufacturers Association), with `midly` doing the byte-level work.
+//!
+//! Reading turns any format 0 or 1 file (any PPQ) into one [`Phrase`] timed
+//! in quarter-note beats: notes from every track and channel are merged, the
+//! phrase starts at the bar line of the first note, and at most
+//! [`MAX_MEASURES`] measures are kept. Whatever had to be interpreted or left
+//! out is said in [`MidiImport::warnings`], one sentence each.
+
+use crate::meter::TimeSignature;
+use crate::note::Note;
+use crate::phrase::{Phrase, MAX_MEASURES};
+use midly::num::{u15, u24, u28, u4, u7};
+use midly::{Format, Header, MetaMessage, MidiMessage, Smf, Timing, TrackEvent, TrackEventKind};
+use std::collections::HashMap;
+
+/// Largest file the reader accepts. A one-to-four-bar prompt is a few
+/// hundred bytes; the cap keeps a wrong file (an audio file renamed, a whole
+/// song library) from being parsed into memory at all.
+pub const MAX_FILE_BYTES: usize = 4 * 1024 * 1024;
+
+/// Tempo the SMF 1.0 specification assumes when a file has no tempo event:
+/// 120 quarter notes per minute.
+pub const DEFAULT_TEMPO_US_PER_QUARTER: u32 = 500_000;
+
+/// A prompt read from a MIDI file.
+#[derive(Debug, Clone, PartialEq)]
+pub struct MidiImport {
+    /// The notes, from the bar line of the first note, at most
+    /// [`MAX_MEASURES`] measures.
+    pub phrase: Phrase,
+    /// Tempo in force where the phrase starts (microseconds per quarter note).
+    pub tempo_us_per_quarter: u32,
+    /// The file's resolution, ticks per quarter note.
+    pub ppq: u16,
+    /// One sentence per thing the reader had to interpret or leave out.
+    pub warnings: Vec<String>,
+}
+
+/// Why a MIDI file could not be read as a prompt.
+#[derive(Debug, Clone, PartialEq, Eq, thiserror::Error)]
+pub enum MidiFileError {
+    #[error("The MIDI file is empty (0 bytes).")]
+    Empty,
+    #[error(
+        "The file is {bytes} bytes, more than the {limit} bytes a prompt file may have; \
+         export just the bars you want to vary."
+    )]
+    TooLarge { bytes: usize, limit: usize },
+    #[error("This is not a readable Standard MIDI File ({0}); check that it is a .mid file and export it again.")]
+    NotMidi(String),
+    #[error(
+        "The file is timed in SMPTE frames ({fps} per second) rather than beats; \
+         export it again with musical (ticks per quarter note) timing."
+    )]
+    SmpteTiming { fps: u8 },
+    #[error("The file declares 0 ticks per quarter note, so its note times mean nothing; export it again.")]
+    ZeroResolution,
+    #[error("The file holds no notes to use as a prompt.")]
+    NoNotes,
+}
+
+/// One note-on/note-off pair, in ticks from the start of the file.
+#[derive(Debug, Clone, Copy)]
+struct TickNote {
+    pitch: u8,
+    velocity: u8,
+    start: u64,
+    end: u64,
+}
+
+/// Everything gathered from the tracks before it becomes a phrase.
+#[derive(Default)]
+struct Timeline {
+    notes: Vec<TickNote>,
+    /// (tick, µs per quarter), in file order per track.
+    tempos: Vec<(u64, u32)>,
+    /// (tick, numerator, denominator as a power of two).
+    time_signatures: Vec<(u64, u8, u8)>,
+    /// Latest tick of any event, end-of-track included.
+    last_tick: u64,
+    /// End-of-track ticks of the tracks that hold notes.
+    note_track_ends: Vec<u64>,
+    channels: Vec<u8>,
+    unterminated: usize,
+}
+
+/// Reads a Standard MIDI File as a prompt.
+pub fn read_smf(bytes: &[u8]) -> Result<MidiImport, MidiFileError> {
+    if bytes.is_empty() {
+        return Err(MidiFileError::Empty);
+    }
+    if bytes.len() > MAX_FILE_BYTES {
+        return Err(MidiFileError::TooLarge {
+            bytes: bytes.len(),
+            limit: MAX_FILE_BYTES,
+        });
+    }
+    let smf = Smf::parse(bytes).map_err(|e| MidiFileError::NotMidi(e.to_string()))?;
+    let ppq = match smf.header.timing {
+        Timing::Metrical(t) => t.as_int(),
+        Timing::Timecode(fps, _) => return Err(MidiFileError::SmpteTiming { fps: fps.as_int() }),
+    };
+    if ppq == 0 {
+        return Err(MidiFileError::ZeroResolution);
+    }
+    let mut warnings = Vec::new();
+    let mut timeline = Timeline::default();
+    let tracks: Vec<&Vec<TrackEvent>> = match smf.header.format {
+        // Format 2 holds independent patterns, not parts played together:
+        // use the first pattern that has notes, and say so.
+        Format::Sequential => {
+            let first = smf.tracks.iter().position(track_has_notes);
+            if smf.tracks.len() > 1 {
+                warnings.push(format!(
+                    "The file holds {} separate patterns (format 2); only pattern {} was read.",
+                    smf.tracks.len(),
+                    first.unwrap_or(0) + 1
+                ));
+            }
+            first.map(|i| vec![&smf.tracks[i]]).unwrap_or_default()
+        }
+        Format::SingleTrack | Format::Parallel => smf.tracks.iter().collect(),
+    };
+    for track in tracks {
+        gather_track(track, &mut timeline);
+    }
+    if timeline.notes.is_empty() {
+        return Err(MidiFileError::NoNotes);
+    }
+    build_import(timeline, ppq, warnings)
+}
+
+fn track_has_notes(track: &Vec<TrackEvent>) -> bool {
+    track.iter().any(|e| {
+        matches!(e.kind, TrackEventKind::Midi { message: MidiMessage::NoteOn { vel, .. }, .. } if vel.as_int() > 0)
+    })
+}
+
+/// Pairs the note-ons and note-offs of one track and collects its meta events.
+///
+/// Pairing is per (channel, pitch). A note-on with velocity 0 is a note-off
+/// (SMF 1.0 / MIDI 1.0 running-status convention). A note-on for a pitch that
+/// is already sounding on the channel re-strikes it: the sounding note ends
+/// there, as it does on a synthesizer, so the phrase never holds a pitch
+/// twice at once. A note-off for a silent pitch is ignored.
+fn gather_track(track: &[TrackEvent], t: &mut Timeline) {
+    let mut tick: u64 = 0;
+    let mut open: HashMap<(u8, u8), (u64, u8)> = HashMap::new();
+    let mut had_notes = false;
+    for event in track {
+        tick += event.delta.as_int() as u64;
+        match event.kind {
+            TrackEventKind::Midi { channel, message } => {
+                let ch = channel.as_int();
+                match message {
+                    MidiMessage::NoteOn { key, vel } if vel.as_int() > 0 => {
+                        let key = key.as_int();
+                        if let Some((start, velocity)) = open.remove(&(ch, key)) {
+                            push_note(t, key, velocity, start, tick);
+                        }
+                        open.insert((ch, key), (tick, vel.as_int()));
+                        had_notes = true;
+                        if !t.channels.contains(&ch) {
+                            t.channels.push(ch);
+                        }
+                    }
+                    MidiMessage::NoteOn { key, .. } | MidiMessage::NoteOff { key, .. } => {
+                        if let Some((start, velocity)) = open.remove(&(ch, key.as_int())) {
+                            push_note(t, key.as_int(), velocity, start, tick);
+                        }
+                    }
+                    _ => {}
+                }
+            }
+            TrackEventKind::Meta(MetaMessage::Tempo(us)) => t.tempos.push((tick, us.as_int())),
+            TrackEventKind::Meta(MetaMessage::TimeSignature(num, denom_pow, _, _)) => {
+                t.time_signatures.push((tick, num, denom_pow))
+            }
+            _ => {}
+        }
+    }
+    t.last_tick = t.last_tick.max(tick);
+    // Notes never switched off end where their track ends, or a sixteenth
+    // after they start if the track ends right there.
+    let mut still_open: Vec<_> = open.into_iter().collect();
+    still_open.sort_by_key(|&((ch, key), (start, _))| (start, ch, key));
+    for ((_, key), (start, velocity)) in still_open {
+        t.unterminated += 1;
+        t.notes.push(TickNote {
+            pitch: key,
+            velocity,
+            start,
+            end: tick.max(start + 1),
+        });
+    }
+    if had_notes {
+        t.note_track_ends.push(tick);
+    }
+}
+
+fn push_note(t: &mut Timeline, pitch: u8, velocity: u8, start: u64, end: u64) {
+    // A note switched off on the tick it started has no length; keep it as
+    // the shortest note the file can express rather than lose the onset.
+    t.notes.push(TickNote {
+        pitch,
+        velocity,
+        start,
+        end: end.max(start + 1),
+    });
+}
+
+fn build_import(
+    mut t: Timeline,
+    ppq: u16,
+    mut warnings: Vec<String>,
+) -> Result<MidiImport, MidiFileError> {
+    t.notes.sort_by_key(|n| (n.start, n.pitch));
+    t.tempos.sort_by_key(|&(tick, _)| tick);
+    t.time_signatures.sort_by_key(|&(tick, _, _)| tick);
+    let first_onset = t.notes[0].start;
+
+    // The metre: the last time signature at or before the first note (or the
+    // first one in the file); the SMF 1.0 spec assumes 4/4 when a file gives none.
+    let chosen = t
+        .time_signatures
+        .iter()
+        .rev()
+        .find(|ts| ts.0 <= first_onset)
+        .or(t.time_signatures.first())
+        .copied();
+    let time_signature = match chosen {
+        None => TimeSignature::FOUR_FOUR,
+        Some((_, num, pow)) => {
+            let den = 1u32
+                .checked_shl(pow as u32)
+                .and_then(|d| u8::try_from(d).ok());
+            match den.map(|den| TimeSignature::new(num, den)) {
+                Some(Ok(ts)) => ts,
+                _ => {
+                    warnings.push(format!(
+                        "The file's time signature ({num} over 2 to the power {pow}) is not one Nudgebar can use; 4/4 was assumed."
+                    ));
+                    TimeSignature::FOUR_FOUR
+                }
+            }
+        }
+    };
+    if let Some((_, num, pow)) = chosen {
+        if t.time_signatures
+            .iter()
+            .any(|ts| ts.0 > first_onset && (ts.1, ts.2) != (num, pow))
+        {
+            warnings.push(format!(
+                "The time signature changes later in the file; the whole prompt was read in {time_signature}."
+            ));
+        }
+    }
+
+    // Bars are counted from tick 0 in the opening metre; the phrase starts at
+    // the bar line at or before the first note.
+    let ticks_per_measure = time_signature.quarters_per_measure() * ppq as f64;
+    let first_bar = (first_onset as f64 / ticks_per_measure + 1e-9).floor() as u64;
+    let start_tick = (first_bar as f64 * ticks_per_measure).round() as u64;
+    if first_bar > 0 {
+        warnings.push(if first_bar == 1 {
+            "The file's first measure was silent and was skipped.".to_string()
+        } else {
+            format!("The file's first {first_bar} measures were silent and were skipped.")
+        });
+    }
+
+    let tempo_us_per_quarter = t
+        .tempos
+        .iter()
+        .rev()
+        .find(|&&(tick, _)| tick <= start_tick)
+        .or(t.tempos.first())
+        .map(|&(_, us)| us)
+        .filter(|&us| us > 0)
+        .unwrap_or(DEFAULT_TEMPO_US_PER_QUARTER);
+    let later_tempos = t
+        .tempos
+        .iter()
+        .filter(|&&(tick, us)| tick > start_tick && us != tempo_us_per_quarter)
+        .count();
+    if later_tempos > 0 {
+        warnings.push(
+            "The tempo changes inside the file; notes were kept in beats and the opening tempo was used.".to_string(),
+        );
+    }
+
+    // Length: every bar holding an onset, or up to the end of the note
+    // tracks when that falls exactly on a bar line (a file that declares
+    // its own length, like the ones Nudgebar writes).
+    let beats = |tick: u64| (tick as f64 - start_tick as f64) / ppq as f64;
+    let measure_len = time_signature.quarters_per_measure();
+    let last_onset_bar =
+        (beats(t.notes.last().map_or(0, |n| n.start)) / measure_len + 1e-9).floor() as u64 + 1;
+    let declared_bars = t
+        .note_track_ends
+        .iter()
+        .filter_map(|&end| {
+            let bars = beats(end) / measure_len;
+            ((bars - bars.round()).abs() < 1e-9 && bars >= 1.0).then_some(bars.round() as u64)
+        })
+        .max()
+        .unwrap_or(0);
+    let bars = last_onset_bar.max(declared_bars.min(MAX_MEASURES as u64));
+    if last_onset_bar > MAX_MEASURES as u64 {
+        warnings.push(format!(
+            "The file has {last_onset_bar} measures of notes; a prompt is at most {MAX_MEASURES}, so the first {MAX_MEASURES} were taken."
+        ));
+    }
+    let measures = bars.clamp(1, MAX_MEASURES as u64) as u8;
+
+    if t.channels.len() > 1 {
+        let mut channels = t.channels.clone();
+        channels.sort_unstable();
+        let list: Vec<String> = channels.iter().map(|c| (c + 1).to_string()).collect();
+        warnings.push(format!(
+            "Notes from MIDI channels {} were merged into one prompt.",
+            list.join(", ")
+        ));
+    }
+    if t.unterminated > 0 {
+        warnings.push(format!(
+            "{} note{} had no note-off and {} ended where {} track ends.",
+            t.unterminated,
+            if t.unterminated == 1 { "" } else { "s" },
+            if t.unterminated == 1 { "was" } else { "were" },
+            if t.unterminated == 1 { "its" } else { "their" }
+        ));
+    }
+
+    let notes = t
+        .notes
+        .iter()
+        .map(|n| {
+            Note::new(
+                n.pitch,
+                beats(n.start),
+                (n.end - n.start) as f64 / ppq as f64,
+                n.velocity,
+            )
+        })
+        .collect();
+    let phrase = Phrase::new(time_signature, measures, notes);
+    Ok(MidiImport {
+        phrase,
+        tempo_us_per_quarter,
+        ppq,
+        warnings,
+    })
+}
+
+/// Writes phrases as a format 1 Standard MIDI File at `ppq` ticks per quarter
+/// note: a conductor track with the tempo and the first phrase's time
+/// signature, then one named track per phrase (channel 1), all starting at
+/// tick 0. Phrases in different metres belong in separate files.
+///
+/// At equal ticks note-offs come before note-ons, so a re-struck pitch is
+/// never switched off by its own previous note; a note that would still be
+/// sounding when the same pitch starts again is shortened to end there.
+/// Each track ends (end-of-track) at its phrase's last bar line, or at its
+/// last note-off if a note rings past it, so readers see the phrase length.
+pub fn write_smf(phrases: &[(&str, &Phrase)], tempo_us_per_quarter: u32, ppq: u16) -> Vec<u8> {
+    let ppq = ppq.clamp(1, u15::max_value().as_int());
+    let time_signature = phrases
+        .first()
+        .map_or(TimeSignature::FOUR_FOUR, |(_, p)| p.time_signature);
+    let mut tracks: Vec<Vec<TrackEvent<'_>>> = Vec::with_capacity(phrases.len() + 1);
+    tracks.push(conductor_track(time_signature, tempo_us_per_quarter));
+    for (name, phrase) in phrases {
+        tracks.push(phrase_track(name.as_bytes(), phrase, ppq));
+    }
+    let smf = Smf {
+        header: Header::new(Format::Parallel, Timing::Metrical(u15::new(ppq))),
+        tracks,
+    };
+    let mut bytes = Vec::new();
+    // Writing into a Vec cannot fail for I/O reasons, and every value placed
+    // in the events above was range-checked, so the encoder has nothing to refuse.
+    smf.write_std(&mut bytes)
+        .expect("an SMF built from checked values encodes into memory");
+    bytes
+}
+
+fn conductor_track(ts: TimeSignature, tempo_us_per_quarter: u32) -> Vec<TrackEvent<'static>> {
+    // MIDI clocks per metronome click: 24 per quarter note (MIDI 1.0), the
+    // click being the notated beat, or the dotted felt beat of compound metres.
+    let notated = 24.0 * 4.0 / ts.denominator as f64;
+    let click = if ts.is_compound() {
+        notated * 3.0
+    } else {
+        notated
+    };
+    let tempo = tempo_us_per_quarter.clamp(1, u24::max_value().as_int());
+    vec![
+        meta(0, MetaMessage::Tempo(u24::new(tempo))),
+        meta(
+            0,
+            MetaMessage::TimeSignature(
+                ts.numerator,
+                ts.denominator.trailing_zeros() as u8,
+                click.round().clamp(1.0, 255.0) as u8,
+                8,
+            ),
+        ),
+        meta(0, MetaMessage::EndOfTrack),
+    ]
+}
+
+fn phrase_track<'a>(name: &'a [u8], phrase: &Phrase, ppq: u16) -> Vec<TrackEvent<'a>> {
+    let to_tick = |beats: f64| {
+        (beats.max(0.0) * ppq as f64)
+            .round()
+            .min(u28::max_value().as_int() as f64) as u64
+    };
+    let mut spans: Vec<(u8, u8, u64, u64)> = phrase
+        .notes
+        .iter()
+        .filter(|n| n.pitch <= 127 && n.onset.is_finite() && n.duration.is_finite())
+        .map(|n| {
+            let start = to_tick(n.onset);
+            (
+                n.pitch,
+                n.velocity.clamp(1, 127),
+                start,
+                to_tick(n.end()).max(start + 1),
+            )
+        })
+        .collect();
+    spans.sort_by_key(|&(pitch, _, start, _)| (pitch, start));
+    // Same pitch again before the previous one ended: end the previous there.
+    for i in 1..spans.len() {
+        let (prev, next) = (spans[i - 1], spans[i]);
+        if prev.0 == next.0 && prev.3 > next.2 {
+            spans[i - 1].3 = next.2.max(prev.2 + 1);
+        }
+    }
+    // (tick, 0 = off / 1 = on, pitch, velocity): sorting puts offs first.
+    let mut events: Vec<(u64, u8, u8, u8)> = Vec::with_capacity(spans.len() * 2);
+    for &(pitch, velocity, start, end) in &spans {
+        events.push((start, 1, pitch, velocity));
+        events.push((end, 0, pitch, 64));
+    }
+    events.sort_unstable();
+    let channel = u4::new(0);
+    let mut out = Vec::with_capacity(events.len() + 2);
+    out.push(meta(0, MetaMessage::TrackName(name)));
+    let mut now = 0u64;
+    for (tick, kind, pitch, velocity) in events {
+        let (key, vel) = (u7::new(pitch), u7::new(velocity));
+        let message = if kind == 1 {
+            MidiMessage::NoteOn { key, vel }
+        } else {
+            MidiMessage::NoteOff { key, vel }
+        };
+        out.push(TrackEvent {
+            delta: delta(tick - now),
+            kind: TrackEventKind::Midi { channel, message },
+        });
+        now = tick;
+    }
+    let end = to_tick(phrase.len_beats()).max(now);
+    out.push(TrackEvent {
+        delta: delta(end - now),
+        kind: TrackEventKind::Meta(MetaMessage::EndOfTrack),
+    });
+    out
+}
+
+fn meta(ticks: u64, message: MetaMessage<'_>) -> TrackEvent<'_> {
+    TrackEvent {
+        delta: delta(ticks),
+        kind: TrackEventKind::Meta(message),
+    }
+}
+
+/// A delta time; the ticks were capped at the 28-bit SMF maximum when made.
+fn delta(ticks: u64) -> u28 {
+    u28::new(ticks.min(u28::max_value().as_int() as u64) as u32)
+}
+
+#[cfg(test)]
+mod tests;
