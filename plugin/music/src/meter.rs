@@ -59,7 +59,7 @@ impl TimeSignature {
     /// True for compound metres (6/8, 9/8, 12/8, …) whose felt beat is a
     /// dotted note grouping three notated beats.
     pub fn is_compound(self) -> bool {
-        self.denominator >= 8 && self.numerator > 3 && self.numerator % 3 == 0
+        self.denominator >= 8 && self.numerator > 3 && self.numerator.is_multiple_of(3)
     }
 
     /// How the notated beats group into felt beats, in notated-beat units.
@@ -103,7 +103,7 @@ impl TimeSignature {
             at += *g as f64 * notated;
         }
         let mut periods = vec![measure];
-        if groups.len() >= 4 && groups.len() % 2 == 0 && groups.iter().all(|&g| g == groups[0]) {
+        if groups.len() >= 4 && groups.len().is_multiple_of(2) && groups.iter().all(|&g| g == groups[0]) {
             periods.push(measure / 2.0);
         }
         if groups.iter().any(|&g| g > 1) {
@@ -114,6 +114,12 @@ impl TimeSignature {
         while period >= step_len - 1e-9 {
             periods.push(period);
             period /= 2.0;
+        }
+        // A grid that is not a power-of-two division (triplets: 12 steps in
+        // 4/4) still has its own step as the lowest level, so that every
+        // position weighs at least 1.
+        if periods.last().is_some_and(|&p| (p - step_len).abs() > 1e-9) {
+            periods.push(step_len);
         }
         let divides = |pos: f64, period: f64| {
             let r = pos / period;
@@ -189,6 +195,13 @@ mod tests {
         // 3/4 on sixteenths.
         let w = TimeSignature::new(3, 4).unwrap().metrical_weights(12);
         assert_eq!(w, vec![4, 1, 2, 1, 3, 1, 2, 1, 3, 1, 2, 1]);
+        // 4/4 on a triplet-eighth grid: beats and half bars as before, each
+        // triplet off-beat on the step level only.
+        let w = TimeSignature::FOUR_FOUR.metrical_weights(12);
+        assert_eq!(w, vec![5, 1, 1, 3, 1, 1, 4, 1, 1, 3, 1, 1]);
+        // 6/8 on an eighth grid.
+        let w = TimeSignature::new(6, 8).unwrap().metrical_weights(6);
+        assert_eq!(w, vec![3, 1, 1, 2, 1, 1]);
         // 7/8 grouped 2+2+3.
         let w = TimeSignature::new(7, 8).unwrap().metrical_weights(14);
         assert_eq!(w, vec![4, 1, 2, 1, 3, 1, 2, 1, 3, 1, 2, 1, 2, 1]);

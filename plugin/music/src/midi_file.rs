@@ -110,7 +110,7 @@ pub fn read_smf(bytes: &[u8]) -> Result<MidiImport, MidiFileError> {
         // Format 2 holds independent patterns, not parts played together:
         // use the first pattern that has notes, and say so.
         Format::Sequential => {
-            let first = smf.tracks.iter().position(track_has_notes);
+            let first = smf.tracks.iter().position(|t| track_has_notes(t));
             if smf.tracks.len() > 1 {
                 warnings.push(format!(
                     "The file holds {} separate patterns (format 2); only pattern {} was read.",
@@ -131,7 +131,7 @@ pub fn read_smf(bytes: &[u8]) -> Result<MidiImport, MidiFileError> {
     build_import(timeline, ppq, warnings)
 }
 
-fn track_has_notes(track: &Vec<TrackEvent>) -> bool {
+fn track_has_notes(track: &[TrackEvent]) -> bool {
     track.iter().any(|e| {
         matches!(e.kind, TrackEventKind::Midi { message: MidiMessage::NoteOn { vel, .. }, .. } if vel.as_int() > 0)
     })
@@ -257,16 +257,18 @@ fn build_import(
         }
     }
 
-    // Bars are counted from tick 0 in the opening metre; the phrase starts at
-    // the bar line at or before the first note.
+    // Bar lines run from the time-signature event in force (a metre change
+    // sits on a bar line), or from tick 0; the phrase starts at the bar line
+    // at or before the first note.
+    let anchor = chosen.map_or(0, |ts| ts.0).min(first_onset);
     let ticks_per_measure = time_signature.quarters_per_measure() * ppq as f64;
-    let first_bar = (first_onset as f64 / ticks_per_measure + 1e-9).floor() as u64;
-    let start_tick = (first_bar as f64 * ticks_per_measure).round() as u64;
-    if first_bar > 0 {
-        warnings.push(if first_bar == 1 {
-            "The file's first measure was silent and was skipped.".to_string()
-        } else {
-            format!("The file's first {first_bar} measures were silent and were skipped.")
+    let bars_in = ((first_onset - anchor) as f64 / ticks_per_measure + 1e-9).floor() as u64;
+    let start_tick = anchor + (bars_in as f64 * ticks_per_measure).round() as u64;
+    if start_tick > 0 {
+        warnings.push(match (anchor, bars_in) {
+            (0, 1) => "The file's first measure was silent and was skipped.".to_string(),
+            (0, n) => format!("The file's first {n} measures were silent and were skipped."),
+            _ => "The silent measures before the first note were skipped.".to_string(),
         });
     }
 
@@ -308,8 +310,16 @@ fn build_import(
         .unwrap_or(0);
     let bars = last_onset_bar.max(declared_bars.min(MAX_MEASURES as u64));
     if last_onset_bar > MAX_MEASURES as u64 {
+        let kept_beats = MAX_MEASURES as f64 * measure_len;
+        let left_out = t
+            .notes
+            .iter()
+            .filter(|n| beats(n.start) >= kept_beats - 1e-9)
+            .count();
         warnings.push(format!(
-            "The file has {last_onset_bar} measures of notes; a prompt is at most {MAX_MEASURES}, so the first {MAX_MEASURES} were taken."
+            "The file has {last_onset_bar} measures of notes; a prompt is at most {MAX_MEASURES}, \
+             so the first {MAX_MEASURES} were taken and {left_out} later note{} left out.",
+            if left_out == 1 { " was" } else { "s were" }
         ));
     }
     let measures = bars.clamp(1, MAX_MEASURES as u64) as u8;

@@ -158,9 +158,33 @@ fn leading_silence_is_skipped_and_long_files_are_cut_to_four_measures() {
         import.warnings
     );
     assert!(
-        import.warnings[1].contains("7 measures of notes"),
+        import.warnings[1].contains("7 measures of notes")
+            && import.warnings[1].contains("3 later notes were left out"),
         "{:?}",
         import.warnings
+    );
+}
+
+#[test]
+fn bar_lines_follow_a_metre_change_before_the_first_note() {
+    // 96 PPQ: a 4/4 count-in bar (384 ticks), then 3/4 from tick 384; the
+    // first note is on beat 2 of the second 3/4 bar (384 + 288 + 96 = 768).
+    let body = [
+        0x00, 0xFF, 0x58, 0x04, 4, 2, 24, 8, // 4/4 at 0
+        0x83, 0x00, 0xFF, 0x58, 0x04, 3, 2, 24, 8, // 3/4 at 384
+        0x83, 0x00, 0x90, 62, 100, // on at 768
+        0x60, 0x80, 62, 0, // off at 864
+    ];
+    let import = read_smf(&smf(0, 96, &[track(&body)])).unwrap();
+    assert_eq!(
+        import.phrase.time_signature,
+        TimeSignature::new(3, 4).unwrap()
+    );
+    // The phrase starts at the 3/4 bar line at tick 672, so the note is on beat 1.
+    assert_eq!(import.phrase.notes[0].onset, 1.0);
+    assert_eq!(
+        import.warnings,
+        vec!["The silent measures before the first note were skipped.".to_string()]
     );
 }
 
