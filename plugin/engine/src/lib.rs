@@ -1,1 +1,29 @@
+//! Nudgebar's variation engine: the model contract (manifest + ONNX graphs),
+//! inference with tract, latent steering and take making, with no plugin
+//! framework in it so it builds and tests anywhere.
+//!
+//! Where things live:
+//! - `manifest`, `package`, `graph_check`: the model contract and its checks;
+//! - `network`: one ONNX graph as an optimized tract plan with a reusable state;
+//! - `fit`, `codec`: prompts into tensors and logits back into notes (hole guard);
+//! - `engine`: the loaded model and its primitives (prepare, encode, decode, read);
+//! - `variation`: takes from a prompt and slider values;
+//! - `preset`: slider settings saved as JSON.
 
+pub mod codec;
+pub mod engine;
+pub mod error;
+pub mod fit;
+pub mod graph_check;
+pub mod manifest;
+pub mod network;
+pub mod package;
+pub mod preset;
+pub mod variation;
+
+pub use codec::{HoleReport, NoteChoice, PitchMask};
+pub use engine::{Engine, Latents, Prepared};
+pub use error::{EngineError, ModelError};
+pub use manifest::{Axis, Manifest};
+pub use package::{ModelIdentity, ModelOrigin, ModelPackage};
+pub use variation::{Take, Variation, VariationRequest, MAX_TAKES};
