@@ -14,6 +14,9 @@ pub use mlp::{
     decoder_graph, encoder_graph, forward, Activation, DecoderSpec, Dense, EncoderSpec, Layer,
 };
 
+/// Re-exported so tests can load what they wrote with the same tract the
+/// engine uses, without a second dependency line to keep in step.
+pub use tract_onnx;
 /// Re-exported so callers can edit a model before writing it.
 pub use tract_onnx::pb;
 
