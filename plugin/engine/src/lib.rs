@@ -3,21 +3,22 @@
 //! framework in it so it builds and tests anywhere.
 //!
 //! Where things live:
-//! - `manifest`, `package`, `graph_check`: the model contract and its checks;
+//! - `manifest`, `package` (from the `nudgebar-contract` crate) and
+//!   `graph_check`: the model contract and its checks against the graphs;
 //! - `network`: one ONNX graph as an optimized tract plan with a reusable state;
 //! - `fit`, `codec`: prompts into tensors and logits back into notes (hole guard);
 //! - `engine`: the loaded model and its primitives (prepare, encode, decode, read);
 //! - `variation`: takes from a prompt and slider values;
 //! - `preset`: slider settings saved as JSON.
 
+pub use nudgebar_contract::{manifest, package};
+
 pub mod codec;
 pub mod engine;
 pub mod error;
 pub mod fit;
 pub mod graph_check;
-pub mod manifest;
 pub mod network;
-pub mod package;
 pub mod preset;
 pub mod variation;
 

@@ -6,6 +6,7 @@
 use crate::codec::{HoleReport, NoteChoice, PitchMask};
 use crate::engine::{Engine, Prepared};
 use crate::error::EngineError;
+pub use nudgebar_contract::take::Take;
 use nudgebar_music::attributes::Readout;
 use nudgebar_music::{Adjustments, Grid, Phrase};
 use rand::SeedableRng;
@@ -47,18 +48,6 @@ impl Default for VariationRequest {
             mask: PitchMask::default(),
         }
     }
-}
-
-#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
-pub struct Take {
-    pub phrase: Phrase,
-    pub attributes: Readout,
-    /// Attributes of the take minus those of the prompt.
-    pub change: Readout,
-    /// The latent code(s) it was decoded from, one row per model input chunk.
-    pub latent: Vec<f32>,
-    /// The noise stream that made it; with the request it reproduces the take.
-    pub stream: u64,
 }
 
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
