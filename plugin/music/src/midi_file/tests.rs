@@ -3,6 +3,11 @@
 //! division; "MTrk", length, then delta-time/event pairs.
 
 use super::*;
+use crate::meter::TimeSignature;
+use crate::note::Note;
+use crate::phrase::MAX_MEASURES;
+use midly::num::u24;
+use midly::{Format, MetaMessage, MidiMessage, Smf, TrackEventKind};
 
 /// A whole file from a format, a division and raw track bodies.
 fn smf(format: u16, division: u16, tracks: &[Vec<u8>]) -> Vec<u8> {
