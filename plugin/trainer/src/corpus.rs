@@ -8,13 +8,16 @@
 //! The point of the corpus is to teach a model sliders, so each call is made
 //! from *targets drawn independently*, then realised exactly:
 //!
-//! 1. an onset count, uniform over 1 … steps per measure (note density);
+//! 1. an onset count from 1 to the steps per measure (note density), uniform
+//!    except that the two ends are drawn a third as often (see
+//!    `draw_onset_count` for why);
 //! 2. a place within the complexity span that onset count allows (rhythmic
 //!    complexity) — the rhythm is then sampled from the crews' rhythm cells
 //!    among those that hit both targets ([`rhythm`]);
 //! 3. a pitch range, uniform over 0 … 28 semitones, and a contour strength
 //!    from falling (−1) to climbing (+1); the line is stretched to exactly the
-//!    range and snapped onto a scale in a register where it fits ([`pitch`]);
+//!    range and snapped onto a scale, in a register drawn around the middle of
+//!    the horn independently of the line's shape ([`pitch`]);
 //! 4. articulation and velocities, which no slider controls.
 //!
 //! Drawing the targets independently is what keeps the measured attributes
