@@ -4,7 +4,9 @@
 //! general-purpose libraries from PyPI (mido, pretty_midi, music21, onnx,
 //! onnxruntime), installed by `cargo xtask test` into `target/pyref`.
 
+pub mod host;
 pub mod pyref;
+pub mod tiny_model;
 
 use std::path::PathBuf;
 
