@@ -80,6 +80,8 @@ pub struct Audition {
     /// carried over so a note on a block boundary is played exactly once.
     carry: Option<f64>,
     cues: ArrayVec<Cue, MAX_CUES>,
+    /// A discontinuity arrived in an empty block and is still to be acted on.
+    missed_jump: bool,
 }
 
 impl Audition {
@@ -100,11 +102,19 @@ impl Audition {
         self.current = None;
         self.carry = None;
         self.cues.clear();
+        self.missed_jump = false;
     }
 
     /// Plans this block's cues. `want` is the take to hear (None: silence).
     pub fn plan(&mut self, clock: &BlockClock, set: Option<&TakeSet>, want: Option<Want>) {
         self.cues.clear();
+        if clock.frames == 0 {
+            // An empty block has no sample to put a cue on; the next one
+            // catches up, including a jump this one announced.
+            self.missed_jump |= clock.discontinuity;
+            return;
+        }
+        let discontinuity = clock.discontinuity || std::mem::take(&mut self.missed_jump);
         let take = match (want, set) {
             (Some(w), Some(s))
                 if s.generation == w.generation && clock.timeline == Timeline::Host =>
@@ -114,7 +124,7 @@ impl Audition {
             _ => None,
         };
         let want = take.and(want);
-        if clock.discontinuity || want != self.current {
+        if discontinuity || want != self.current {
             self.stop_all(0);
             self.current = want;
             self.carry = None;
@@ -461,6 +471,32 @@ mod tests {
             .filter(|(_, k)| matches!(k, CueKind::StopAll))
             .count();
         assert!(all_stops >= 4, "{:?}", p.log);
+    }
+
+    #[test]
+    fn an_empty_block_carrying_a_jump_is_acted_on_next_block() {
+        let ts = TimeSignature::FOUR_FOUR;
+        let takes = set(ts, 1, &[(0.0, 4.0, 60)], 1);
+        let want = Some(Want {
+            generation: 1,
+            take: 0,
+        });
+        let mut p = Player::new();
+        p.block(host(0.0, 120.0, ts), 64, Some(&takes), want);
+        assert_eq!(p.on.len(), 1);
+        // The host jumps to bar 5 in an empty block, then plays on from there.
+        p.block(host(20.0, 120.0, ts), 0, Some(&takes), want);
+        assert!(p.audition.cues().is_empty());
+        p.block(host(20.0, 120.0, ts), 64, Some(&takes), want);
+        let last = p
+            .log
+            .iter()
+            .rev()
+            .take(2)
+            .map(|(_, k)| *k)
+            .collect::<Vec<_>>();
+        assert!(matches!(last[1], CueKind::StopAll), "{:?}", p.log);
+        assert!(matches!(last[0], CueKind::Start { key: 60, .. }));
     }
 
     #[test]
