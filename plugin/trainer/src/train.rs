@@ -1,0 +1,187 @@
+//! Training: reconstruction + β·KL + γ·attribute regularization.
+//!
+//! The regularizer is the AR-VAE term of Pati & Lerch, "Attribute-based
+//! regularization of latent spaces for variational auto-encoders" (Neural
+//! Computing and Applications, 2021): for regularized dimension r tied to
+//! attribute a, over all pairs (i, j) of a batch,
+//! mean |tanh(δ·(z_r,i − z_r,j)) − sign(a_i − a_j)|,
+//! which pushes z_r to grow monotonically with a. Pairs where either
+//! attribute is undefined (the contour of a lone note) are left out.
+
+use crate::contract::{CLASSES, INPUT, LATENT, REGULARIZED, STEPS};
+use crate::dataset::Dataset;
+use crate::vae::{scalar, Architecture, Vae};
+use anyhow::Result;
+use candle_core::{Tensor, D};
+use candle_nn::{AdamW, Optimizer, ParamsAdamW};
+use rand::{Rng, SeedableRng};
+use rand_chacha::ChaCha8Rng;
+use rand_distr::StandardNormal;
+use serde::Serialize;
+
+/// Everything that decides the trained weights, besides the corpus.
+#[derive(Debug, Clone, PartialEq, Serialize)]
+pub struct TrainConfig {
+    pub seed: u64,
+    pub steps: usize,
+    pub batch: usize,
+    pub learning_rate: f64,
+    /// KL weight, reached linearly over the first `beta_warmup` steps (KL
+    /// annealing, a common practice that keeps the decoder from ignoring
+    /// the code early on).
+    pub beta: f64,
+    pub beta_warmup: usize,
+    /// Weight of the attribute-regularization term (one term per attribute).
+    pub gamma: f64,
+    /// Sharpness δ of tanh in the regularizer.
+    pub delta: f64,
+    #[serde(skip)]
+    pub architecture: Architecture,
+}
+
+impl Default for TrainConfig {
+    fn default() -> Self {
+        TrainConfig {
+            seed: 0x5EED_F3E7,
+            steps: 6000,
+            batch: 128,
+            learning_rate: 1e-3,
+            beta: 0.2,
+            beta_warmup: 2000,
+            gamma: 1.0,
+            delta: 10.0,
+            architecture: Architecture::default(),
+        }
+    }
+}
+
+/// Loss parts, averaged over a logging window.
+#[derive(Debug, Clone, Copy, Default, PartialEq, Serialize)]
+pub struct LossParts {
+    pub step: usize,
+    /// Cross-entropy summed over the 16 steps, nats per measure.
+    pub reconstruction: f32,
+    /// KL divergence to N(0, I), nats per measure.
+    pub kl: f32,
+    /// Regularizer per attribute, in `REGULARIZED` order (0 = perfectly ordered, 2 = reversed).
+    pub regularizer: [f32; REGULARIZED.len()],
+}
+
+/// Pairwise targets for one batch and one attribute: sign(a_i − a_j) and a
+/// 0/1 mask of pairs where both values are defined.
+fn pair_targets(
+    data: &Dataset,
+    idx: &[u32],
+    r: usize,
+    device: &candle_core::Device,
+) -> Result<(Tensor, Tensor)> {
+    let n = idx.len();
+    let mut sign = vec![0f32; n * n];
+    let mut mask = vec![0f32; n * n];
+    for (i, &a) in idx.iter().enumerate() {
+        for (j, &b) in idx.iter().enumerate() {
+            if let (Some(x), Some(y)) = (
+                data.attributes[a as usize][r],
+                data.attributes[b as usize][r],
+            ) {
+                sign[i * n + j] = (x - y).signum() as f32 * ((x - y).abs() > 1e-9) as u8 as f32;
+                mask[i * n + j] = 1.0;
+            }
+        }
+    }
+    Ok((
+        Tensor::from_vec(sign, (n, n), device)?,
+        Tensor::from_vec(mask, (n, n), device)?,
+    ))
+}
+
+/// Trains a fresh VAE; `progress` sees the averaged losses every `log_every` steps.
+pub fn train(
+    cfg: &TrainConfig,
+    data: &Dataset,
+    log_every: usize,
+    mut progress: impl FnMut(&LossParts),
+) -> Result<Vae> {
+    let vae = Vae::new(&cfg.architecture, cfg.seed)?;
+    let device = vae.device.clone();
+    let all_inputs = Tensor::from_slice(&data.inputs, (data.rows, INPUT), &device)?;
+    let all_targets = Tensor::from_slice(&data.targets, (data.rows, STEPS), &device)?;
+    let mut opt = AdamW::new(
+        vae.vars(),
+        ParamsAdamW {
+            lr: cfg.learning_rate,
+            weight_decay: 0.0,
+            ..Default::default()
+        },
+    )?;
+    // One stream for batches, one for the reparameterization noise, so
+    // changing one never shifts the other.
+    let mut batches = ChaCha8Rng::seed_from_u64(cfg.seed ^ 0xBA7C);
+    let mut noise = ChaCha8Rng::seed_from_u64(cfg.seed ^ 0x1015E);
+    let mut window = LossParts::default();
+    let mut window_len = 0usize;
+    for step in 0..cfg.steps {
+        let idx: Vec<u32> = (0..cfg.batch)
+            .map(|_| batches.random_range(0..data.rows as u32))
+            .collect();
+        let idx_t = Tensor::from_slice(&idx, cfg.batch, &device)?;
+        let x = all_inputs.index_select(&idx_t, 0)?;
+        let y = all_targets.index_select(&idx_t, 0)?.flatten_all()?;
+        let (mu, log_var) = vae.encode(&x)?;
+        let eps: Vec<f32> = (0..cfg.batch * LATENT)
+            .map(|_| noise.sample(StandardNormal))
+            .collect();
+        let eps = Tensor::from_vec(eps, (cfg.batch, LATENT), &device)?;
+        let z = (&mu + (log_var.affine(0.5, 0.0)?.exp()? * eps)?)?;
+        let logits = vae.decode(&z)?.reshape((cfg.batch * STEPS, CLASSES))?;
+        // cross_entropy averages over steps; × STEPS gives nats per measure.
+        let recon = (candle_nn::loss::cross_entropy(&logits, &y)? * STEPS as f64)?;
+        // KL(q(z|x) ‖ N(0, I)) = −½ Σ (1 + log σ² − μ² − σ²), per measure.
+        let kl = ((log_var.exp()? + mu.sqr()? - &log_var)?
+            .affine(1.0, -1.0)?
+            .sum(D::Minus1)?
+            .mean_all()?
+            * 0.5)?;
+        let mut reg_parts = [0f32; REGULARIZED.len()];
+        let mut reg_total = Tensor::zeros((), candle_core::DType::F32, &device)?;
+        for r in 0..REGULARIZED.len() {
+            let zr = z.narrow(1, r, 1)?;
+            let dz = zr.broadcast_sub(&zr.t()?)?;
+            let (sign, mask) = pair_targets(data, &idx, r, &device)?;
+            let pairs = scalar(&mask.sum_all()?)?.max(1.0);
+            let term = (((dz * cfg.delta)?.tanh()? - sign)?.abs()? * &mask)?
+                .sum_all()?
+                .affine(1.0 / pairs as f64, 0.0)?;
+            reg_parts[r] = scalar(&term)?;
+            reg_total = (reg_total + term)?;
+        }
+        // Hold the learning rate for the first half, then decay it linearly
+        // to a tenth: the late, small steps settle the reconstruction.
+        let late = (step as f64 / cfg.steps as f64 - 0.5).max(0.0) * 2.0;
+        opt.set_learning_rate(cfg.learning_rate * (1.0 - 0.9 * late));
+        let beta = cfg.beta * ((step + 1) as f64 / cfg.beta_warmup.max(1) as f64).min(1.0);
+        let loss = ((&recon + (&kl * beta)?)? + (reg_total * cfg.gamma)?)?;
+        opt.backward_step(&loss)?;
+
+        window.reconstruction += scalar(&recon)?;
+        window.kl += scalar(&kl)?;
+        for (w, p) in window.regularizer.iter_mut().zip(reg_parts) {
+            *w += p;
+        }
+        window_len += 1;
+        if (step + 1) % log_every.max(1) == 0 || step + 1 == cfg.steps {
+            let n = window_len as f32;
+            let mut avg = LossParts {
+                step: step + 1,
+                reconstruction: window.reconstruction / n,
+                kl: window.kl / n,
+                ..window
+            };
+            avg.regularizer = window.regularizer.map(|v| v / n);
+            progress(&avg);
+            window = LossParts::default();
+            window_len = 0;
+        }
+    }
+    Ok(vae)
+}
