@@ -1,1 +1,48 @@
-fn main() {}
+//! `nudge`: Nudgebar's offline command. `vary` makes takes from a prompt
+//! .mid file; `inspect` checks a model package and prints its contract.
+//! Errors are one line on stderr and exit code 1, never a backtrace.
+
+mod inspect;
+mod model;
+mod report;
+mod vary;
+
+use clap::{Parser, Subcommand};
+use std::path::PathBuf;
+
+#[derive(Parser)]
+#[command(
+    name = "nudge",
+    version,
+    about = "Steer a MIDI phrase along musical-attribute sliders with a VAE, offline."
+)]
+struct Cli {
+    #[command(subcommand)]
+    command: Command,
+}
+
+#[derive(Subcommand)]
+enum Command {
+    /// Make takes from a prompt: one .mid per take plus a table of measured attributes.
+    Vary(vary::VaryArgs),
+    /// Load a model package, check it against its graphs, print its contract and axes.
+    Inspect {
+        /// The package folder (manifest.json + ONNX files); the built-in demo model when left out.
+        model: Option<PathBuf>,
+        /// Print the contract as JSON.
+        #[arg(long)]
+        json: bool,
+    },
+}
+
+fn main() {
+    let cli = Cli::parse();
+    let result = match cli.command {
+        Command::Vary(args) => vary::run(args),
+        Command::Inspect { model, json } => inspect::run(model.as_deref(), json),
+    };
+    if let Err(message) = result {
+        eprintln!("nudge: {message}");
+        std::process::exit(1);
+    }
+}
