@@ -126,13 +126,10 @@ impl Default for Nudgebar {
     }
 }
 
-/// The model used when none is chosen.
-// TODO(demo model): return `nudgebar_demo_model::package()` once that crate
-// lands; until then the plugin starts with no model and says so.
+/// The model used when none is chosen: the demo model compiled into the
+/// plugin, so the sliders work on a fresh machine.
 fn builtin_model() -> Result<nudgebar_engine::ModelPackage, nudgebar_engine::ModelError> {
-    Err(nudgebar_engine::ModelError::ManifestValue(
-        "this build has no built-in demo model yet; choose a model package folder".into(),
-    ))
+    Ok(nudgebar_demo_model::package())
 }
 
 impl Nudgebar {
