@@ -59,7 +59,10 @@ pub struct GridSpec {
 
 impl GridSpec {
     pub fn steps(&self) -> usize {
-        self.steps_per_measure * self.measures as usize
+        // Saturating: a hostile manifest may declare a step count whose
+        // product overflows; `check` then refuses it as too large.
+        self.steps_per_measure
+            .saturating_mul(self.measures as usize)
     }
     /// Length of one step in quarter-note beats.
     pub fn step_beats(&self) -> f64 {
@@ -343,6 +346,14 @@ impl Manifest {
                 return bad(format!(
                     "axis {n} ({}) has span {}; it must be a positive latent distance",
                     axis.attribute, axis.span
+                ));
+            }
+            // Rates are shares of bad decodes; JSON numbers too large for
+            // f32 arrive as infinity, which would not even save back.
+            if axis.hole_rate.iter().any(|r| !(0.0..=1.0).contains(r)) {
+                return bad(format!(
+                    "axis {n} ({}) has a hole_rate entry outside 0 to 1; each entry is the share of bad decodes at one slider position",
+                    axis.attribute
                 ));
             }
             match (&axis.dimension, &axis.direction) {

@@ -5,6 +5,7 @@
 use crate::error::ModelError;
 use crate::manifest::Manifest;
 use serde::{Deserialize, Serialize};
+use std::io::Read;
 use std::path::{Path, PathBuf};
 
 /// The manifest's file name inside a package folder.
@@ -159,13 +160,36 @@ fn read_capped(
     let meta = match std::fs::metadata(&path) {
         Ok(m) => m,
         Err(e) if e.kind() == std::io::ErrorKind::NotFound => {
+            // A link whose target is gone still exists as a link: say that,
+            // not "missing", so the user looks at the link.
+            if std::fs::symlink_metadata(&path).is_ok_and(|m| m.file_type().is_symlink()) {
+                return Err(ModelError::FolderUnreadable(
+                    path,
+                    "it is a link to a file that no longer exists".into(),
+                ));
+            }
             return Err(ModelError::MissingFile {
                 folder: folder.to_path_buf(),
                 file: file.to_string(),
-            })
+            });
         }
         Err(e) => return Err(ModelError::FolderUnreadable(path, e.to_string())),
     };
+    // Only regular files: opening a named pipe blocks until someone writes
+    // to it, and a device such as /dev/zero never ends, so either would
+    // hang the worker; both report a length of 0, which passes the cap.
+    if meta.is_dir() {
+        return Err(ModelError::FolderUnreadable(
+            path,
+            "it is a folder, not a file".into(),
+        ));
+    }
+    if !meta.is_file() {
+        return Err(ModelError::FolderUnreadable(
+            path,
+            "it is not a regular file (a pipe, socket or device), so it cannot hold a model".into(),
+        ));
+    }
     if meta.len() > limit {
         return Err(ModelError::FileTooLarge {
             file: file.to_string(),
@@ -174,7 +198,20 @@ fn read_capped(
             what,
         });
     }
-    std::fs::read(&path).map_err(|e| ModelError::FolderUnreadable(path, e.to_string()))
+    // Read at most one byte past the cap, in case the file grew after it was measured.
+    let mut bytes = Vec::with_capacity(meta.len() as usize);
+    std::fs::File::open(&path)
+        .and_then(|f| f.take(limit + 1).read_to_end(&mut bytes))
+        .map_err(|e| ModelError::FolderUnreadable(path.clone(), e.to_string()))?;
+    if bytes.len() as u64 > limit {
+        return Err(ModelError::FileTooLarge {
+            file: file.to_string(),
+            size: bytes.len() as u64,
+            limit,
+            what,
+        });
+    }
+    Ok(bytes)
 }
 
 /// FNV-1a, 64-bit (Fowler, Noll, Vo; parameters from the IETF draft
