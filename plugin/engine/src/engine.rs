@@ -94,13 +94,13 @@ impl Engine {
             .prepare(&silent)
             .map_err(|e| ModelError::OnnxUnsupported {
                 which: "encoder",
-                detail: e.to_string(),
+                detail: e.to_string().trim_end_matches('.').to_string(),
             })?;
         let latents = self
             .encode(&prepared)
             .map_err(|e| ModelError::OnnxUnsupported {
                 which: "encoder",
-                detail: e.to_string(),
+                detail: e.to_string().trim_end_matches('.').to_string(),
             })?;
         if latents.mean.iter().any(|v| !v.is_finite()) {
             return Err(ModelError::NonFiniteOutput { which: "encoder" });
@@ -109,7 +109,7 @@ impl Engine {
             self.decode(&latents.mean, latents.rows)
                 .map_err(|e| ModelError::OnnxUnsupported {
                     which: "decoder",
-                    detail: e.to_string(),
+                    detail: e.to_string().trim_end_matches('.').to_string(),
                 })?;
         if logits.iter().any(|v| !v.is_finite()) {
             return Err(ModelError::NonFiniteOutput { which: "decoder" });

@@ -29,20 +29,46 @@ pub struct Ports {
 }
 
 /// Reads ONNX bytes into tract's typed form.
+///
+/// tract answers almost every malformed file with an error, but a few it
+/// meets with a panic (tract-onnx 0.23 has `unimplemented!` for a
+/// string-typed initializer stored as raw bytes). A user's file must not take
+/// the worker down, so a panic here is refused like any unreadable file.
 pub fn load_typed(which: Which, file: &str, bytes: &[u8]) -> Result<TypedModel, ModelError> {
-    let inference = tract_onnx::onnx()
-        .model_for_read(&mut &bytes[..])
-        .map_err(|e| ModelError::OnnxUnreadable {
-            which: which.name(),
-            file: file.to_string(),
-            detail: first_line(&e),
-        })?;
-    inference
-        .into_typed()
-        .map_err(|e| ModelError::OnnxUnsupported {
-            which: which.name(),
-            detail: first_line(&e),
-        })
+    let unreadable = |detail: String| ModelError::OnnxUnreadable {
+        which: which.name(),
+        file: file.to_string(),
+        detail,
+    };
+    let inference = std::panic::catch_unwind(|| tract_onnx::onnx().model_for_read(&mut &bytes[..]))
+        .map_err(|panic| {
+            unreadable(format!(
+                "the ONNX reader gave up on it ({})",
+                panic_text(&*panic)
+            ))
+        })?
+        .map_err(|e| unreadable(first_line(&e)))?;
+    let unsupported = |detail: String| ModelError::OnnxUnsupported {
+        which: which.name(),
+        detail,
+    };
+    std::panic::catch_unwind(std::panic::AssertUnwindSafe(|| inference.into_typed()))
+        .map_err(|panic| unsupported(format!("tract gave up on it ({})", panic_text(&*panic))))?
+        .map_err(|e| unsupported(first_line(&e)))
+}
+
+/// The message of a caught panic, for the refusal sentence.
+fn panic_text(panic: &(dyn std::any::Any + Send)) -> String {
+    panic
+        .downcast_ref::<&str>()
+        .map(|s| s.to_string())
+        .or_else(|| panic.downcast_ref::<String>().cloned())
+        .unwrap_or_else(|| "no message".into())
+        .lines()
+        .next()
+        .unwrap_or("")
+        .trim_end_matches('.')
+        .to_string()
 }
 
 /// tract errors carry a chain of context; the deepest cause is what a user
