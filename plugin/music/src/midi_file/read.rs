@@ -43,6 +43,11 @@ pub fn read_smf(bytes: &[u8]) -> Result<MidiImport, MidiFileError> {
             limit: MAX_FILE_BYTES,
         });
     }
+    if impossible_smpte_rate(bytes) {
+        return Err(MidiFileError::NotMidi(
+            "its header gives an impossible SMPTE frame rate".into(),
+        ));
+    }
     let smf = Smf::parse(bytes).map_err(|e| MidiFileError::NotMidi(e.to_string()))?;
     let ppq = match smf.header.timing {
         Timing::Metrical(t) => t.as_int(),
@@ -76,6 +81,19 @@ pub fn read_smf(bytes: &[u8]) -> Result<MidiImport, MidiFileError> {
         return Err(MidiFileError::NoNotes);
     }
     build_import(timeline, ppq, warnings)
+}
+
+/// midly 0.5.3 reads an SMPTE header by negating its frame-rate byte as an
+/// `i8`; the byte 0x80 (−128) overflows there, which panics wherever
+/// overflow checks are on (debug builds, fuzzing). No frame rate is −128, so
+/// a header chunk carrying it (the high byte of the division word, 12 bytes
+/// after the `MThd` id) is refused before midly sees it. Found by fuzzing
+/// (fuzz/corpus/midi_file/regression-smpte-minus-128.mid).
+fn impossible_smpte_rate(bytes: &[u8]) -> bool {
+    bytes
+        .windows(4)
+        .enumerate()
+        .any(|(at, id)| id == b"MThd" && bytes.get(at + 12) == Some(&0x80))
 }
 
 fn track_has_notes(track: &[TrackEvent]) -> bool {
