@@ -5,6 +5,7 @@
 //! onnxruntime), installed by `cargo xtask test` into `target/pyref`.
 
 pub mod host;
+pub mod hostile;
 pub mod pyref;
 pub mod tiny_model;
 
