@@ -9,17 +9,21 @@
 //! - `fit`, `codec`: prompts into tensors and logits back into notes (hole guard);
 //! - `engine`: the loaded model and its primitives (prepare, encode, decode, read);
 //! - `variation`: takes from a prompt and slider values;
+//! - `steer`: beyond plain sliders (key/scale masks, locks, target search,
+//!   blends, slider sweeps); `derive_axes`: axes for a plain VAE from a corpus;
 //! - `preset`: slider settings saved as JSON.
 
 pub use nudgebar_contract::{manifest, package};
 
 pub mod codec;
+pub mod derive_axes;
 pub mod engine;
 pub mod error;
 pub mod fit;
 pub mod graph_check;
 pub mod network;
 pub mod preset;
+pub mod steer;
 pub mod variation;
 
 pub use codec::{HoleReport, NoteChoice, PitchMask};
