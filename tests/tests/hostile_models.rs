@@ -363,3 +363,23 @@ fn midi_header_with_frame_rate_minus_128_is_refused() {
         "{err}"
     );
 }
+
+/// Also found by fuzzing, in the first version of that guard: note bytes
+/// can spell "MThd" with a note-off 0x80 twelve bytes later, so only the real
+/// header may be checked. This prompt must read, write and read back.
+#[test]
+fn note_bytes_that_spell_a_header_do_not_refuse_a_prompt() {
+    let bytes = std::fs::read(
+        nudgebar_tests::workspace_root()
+            .join("fuzz/corpus/midi_file/regression-notes-spell-header.mid"),
+    )
+    .expect("the regression seed is committed");
+    let import = nudgebar_music::read_smf(&bytes).expect("a readable prompt");
+    let written = nudgebar_music::write_smf(
+        &[("take", &import.phrase)],
+        import.tempo_us_per_quarter,
+        import.ppq,
+    );
+    let again = nudgebar_music::read_smf(&written).expect("reads back");
+    assert_eq!(again.phrase.notes.len(), import.phrase.notes.len());
+}

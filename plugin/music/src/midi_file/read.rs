@@ -86,14 +86,23 @@ pub fn read_smf(bytes: &[u8]) -> Result<MidiImport, MidiFileError> {
 /// midly 0.5.3 reads an SMPTE header by negating its frame-rate byte as an
 /// `i8`; the byte 0x80 (−128) overflows there, which panics wherever
 /// overflow checks are on (debug builds, fuzzing). No frame rate is −128, so
-/// a header chunk carrying it (the high byte of the division word, 12 bytes
-/// after the `MThd` id) is refused before midly sees it. Found by fuzzing
+/// such a header is refused before midly sees it. Found by fuzzing
 /// (fuzz/corpus/midi_file/regression-smpte-minus-128.mid).
+///
+/// A plain file's header chunk is at the start, its division's high byte 12
+/// bytes in. An RMID file (SMF inside RIFF) may place it anywhere, so there
+/// any `MThd` followed 12 bytes later by 0x80 is refused: note data can spell
+/// that by chance, but RMID files are rare and the refusal says why.
 fn impossible_smpte_rate(bytes: &[u8]) -> bool {
-    bytes
-        .windows(4)
-        .enumerate()
-        .any(|(at, id)| id == b"MThd" && bytes.get(at + 12) == Some(&0x80))
+    let rate_byte_at = |at: usize| bytes.get(at + 12) == Some(&0x80);
+    if bytes.starts_with(b"RIFF") {
+        bytes
+            .windows(4)
+            .enumerate()
+            .any(|(at, id)| id == b"MThd" && rate_byte_at(at))
+    } else {
+        bytes.starts_with(b"MThd") && rate_byte_at(0)
+    }
 }
 
 fn track_has_notes(track: &[TrackEvent]) -> bool {
