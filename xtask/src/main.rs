@@ -3,6 +3,7 @@
 //! Each task lives in its own module; this file only dispatches.
 
 mod demo;
+mod fuzz;
 mod pyref;
 mod test;
 mod train;
@@ -16,6 +17,7 @@ tasks:
   test                 install the Python reference tools (once) and run every test
   demo                 vary a preset prompt with the embedded demo model and print the takes
   train-demo-model     train the demo model from scratch and write plugin/demo-model/
+  fuzz [--seconds N]   run each libFuzzer target in fuzz/ for N seconds (default 60) from the seed corpus
   bundle <crate> [...] build CLAP and VST3 bundles into target/bundled/ (e.g. `bundle nudgebar --release`)
 ";
 
@@ -26,6 +28,7 @@ fn main() {
     let result = match task.as_str() {
         "test" => test::run(&rest),
         "demo" => demo::run(&rest),
+        "fuzz" => fuzz::run(&rest),
         "train-demo-model" => train::run(&rest),
         "bundle" => bundle(&rest),
         "" | "help" | "--help" | "-h" => {
