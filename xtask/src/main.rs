@@ -2,6 +2,7 @@
 //!
 //! Each task lives in its own module; this file only dispatches.
 
+mod bench;
 mod demo;
 mod fuzz;
 mod pyref;
@@ -18,6 +19,8 @@ tasks:
   demo                 vary a preset prompt with the embedded demo model and print the takes
   train-demo-model     train the demo model from scratch and write plugin/demo-model/
   fuzz [--seconds N]   run each libFuzzer target in fuzz/ for N seconds (default 60) from the seed corpus
+  bench [engine|audio|drag]  time the engine against onnxruntime and the FLOP bound, count process()
+                       instructions with callgrind, drag a slider; table in target/bench/table.md
   bundle <crate> [...] build CLAP and VST3 bundles into target/bundled/ (e.g. `bundle nudgebar --release`)
 ";
 
@@ -27,6 +30,7 @@ fn main() {
     let rest: Vec<String> = args.collect();
     let result = match task.as_str() {
         "test" => test::run(&rest),
+        "bench" => bench::run(&rest),
         "demo" => demo::run(&rest),
         "fuzz" => fuzz::run(&rest),
         "train-demo-model" => train::run(&rest),
