@@ -2,9 +2,12 @@
 //! .mid file; `inspect` checks a model package and prints its contract.
 //! Errors are one line on stderr and exit code 1, never a backtrace.
 
+mod aim;
+mod derive;
 mod inspect;
 mod model;
 mod report;
+mod report_cmd;
 mod vary;
 
 use clap::{Parser, Subcommand};
@@ -33,6 +36,12 @@ enum Command {
         #[arg(long)]
         json: bool,
     },
+    /// Search one axis for a take that measures a target value (e.g. note_density=7).
+    Aim(aim::AimArgs),
+    /// Derive axes for a plain VAE from a folder of your own .mid files.
+    DeriveAxes(derive::DeriveArgs),
+    /// Measure how well a model's axes steer and where it decodes badly: JSON + HTML.
+    Report(report_cmd::ReportArgs),
 }
 
 fn main() {
@@ -40,6 +49,9 @@ fn main() {
     let result = match cli.command {
         Command::Vary(args) => vary::run(args),
         Command::Inspect { model, json } => inspect::run(model.as_deref(), json),
+        Command::Aim(args) => aim::run(args),
+        Command::DeriveAxes(args) => derive::run(args),
+        Command::Report(args) => report_cmd::run(args),
     };
     if let Err(message) = result {
         eprintln!("nudge: {message}");
