@@ -98,6 +98,7 @@ pub fn package() -> ModelPackage {
 }
 
 /// Writes the package into a folder (for "load a model by path").
+#[allow(dead_code)] // used by worker.rs, not by every test file
 pub fn write_folder(dir: &std::path::Path) {
     std::fs::create_dir_all(dir).unwrap();
     std::fs::write(dir.join("manifest.json"), manifest()).unwrap();
