@@ -5,9 +5,7 @@
 
 use anyhow::{Context, Result};
 use nudgebar_bench::probe::Scenario;
-use nudgebar_bench::{
-    callgrind, dragging, engine_rows, flops, growth, models, out_dir, report, root,
-};
+use nudgebar_bench::{callgrind, dragging, engine_rows, flops, growth, models, out_dir, report};
 use nudgebar_music::{demo_prompts, Phrase, TimeSignature};
 
 fn main() {
