@@ -87,22 +87,32 @@ pub fn read_smf(bytes: &[u8]) -> Result<MidiImport, MidiFileError> {
 /// `i8`; the byte 0x80 (−128) overflows there, which panics wherever
 /// overflow checks are on (debug builds, fuzzing). No frame rate is −128, so
 /// such a header is refused before midly sees it. Found by fuzzing
-/// (fuzz/corpus/midi_file/regression-smpte-minus-128.mid).
+/// (fuzz/corpus/midi_file/regression-*.mid).
 ///
-/// A plain file's header chunk is at the start, its division's high byte 12
-/// bytes in. An RMID file (SMF inside RIFF) may place it anywhere, so there
-/// any `MThd` followed 12 bytes later by 0x80 is refused: note data can spell
-/// that by chance, but RMID files are rare and the refusal says why.
+/// midly reads every chunk whose id is `MThd` as a header, the first and any
+/// duplicate later, so the walk below visits the chunks as midly does (id,
+/// big-endian length, data cut short at the end of the file) and checks the
+/// division's high byte of each header. Looking for `MThd` anywhere would be
+/// wrong: note data can spell it by chance. An RMID file (SMF inside RIFF)
+/// is rare, so there any `MThd` followed 12 bytes later by 0x80 is refused.
 fn impossible_smpte_rate(bytes: &[u8]) -> bool {
-    let rate_byte_at = |at: usize| bytes.get(at + 12) == Some(&0x80);
     if bytes.starts_with(b"RIFF") {
-        bytes
+        return bytes
             .windows(4)
             .enumerate()
-            .any(|(at, id)| id == b"MThd" && rate_byte_at(at))
-    } else {
-        bytes.starts_with(b"MThd") && rate_byte_at(0)
+            .any(|(at, id)| id == b"MThd" && bytes.get(at + 12) == Some(&0x80));
     }
+    let mut rest = bytes;
+    while rest.len() >= 8 {
+        let len = u32::from_be_bytes([rest[4], rest[5], rest[6], rest[7]]) as usize;
+        let data = &rest[8..];
+        let data = &data[..len.min(data.len())];
+        if &rest[..4] == b"MThd" && data.len() >= 6 && data[4] == 0x80 {
+            return true;
+        }
+        rest = &rest[8 + data.len()..];
+    }
+    false
 }
 
 fn track_has_notes(track: &[TrackEvent]) -> bool {
