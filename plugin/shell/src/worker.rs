@@ -194,7 +194,7 @@ impl Worker {
                     None
                 };
                 self.view.model_error = Some(match fallback {
-                    None if folder.is_some() => format!("{e} The saved model folder is kept in the project; the model in use is shown above."),
+                    None if folder.is_some() => format!("{e} The saved model folder is kept in the project, so it loads again once it is back."),
                     None => e,
                     Some(e2) => format!("{e} The built-in model could not be loaded either: {e2}"),
                 });

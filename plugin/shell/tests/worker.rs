@@ -274,3 +274,62 @@ fn dragging_a_slider_coalesces_to_the_latest_value() {
     );
     drop(handle);
 }
+
+#[test]
+fn a_session_loaded_by_the_host_brings_its_prompt_and_model_folder() {
+    use nudgebar::state::{SavedPrompt, SessionState};
+    let (audio, worker_link, _commands) = channels();
+    let params = Arc::new(NudgebarParams::default());
+    let shared = Arc::new(Shared::default());
+    let handle = spawn(worker_link, params.clone(), shared.clone(), builtin());
+    wait_for(&shared, "the model", |v| v.model.is_some());
+
+    // A project saved with a model folder that exists: its model and prompt come back.
+    let folder =
+        std::env::temp_dir().join(format!("nudgebar-session-model-{}", std::process::id()));
+    support::write_folder(&folder);
+    let saved = SessionState {
+        prompt: Some(SavedPrompt {
+            phrase: prompt().to_phrase(),
+            tempo: 88.0,
+        }),
+        model_path: Some(folder.to_string_lossy().into_owned()),
+        ..SessionState::default()
+    };
+    params.session.load(saved.clone());
+    let view = wait_for(&shared, "takes from the loaded prompt", |v| {
+        !v.takes.is_empty() && v.model.as_ref().is_some_and(|m| m.folder.is_some())
+    });
+    assert_eq!(
+        view.prompt.as_ref().unwrap().notes.len(),
+        prompt().notes.len()
+    );
+    // Loading does not rewrite the session: a save right after gives it back.
+    assert_eq!(params.session.read(|s| s.clone()), saved);
+
+    // A project whose model folder has gone missing: the folder stays in
+    // the session (so nothing is lost when the drive comes back) and the
+    // user is told.
+    std::fs::remove_dir_all(&folder).unwrap();
+    params.session.load(SessionState {
+        model_path: Some("/nonexistent/nudgebar-model".into()),
+        ..saved
+    });
+    let view = wait_for(&shared, "the missing-folder error", |v| {
+        v.model_error.is_some()
+    });
+    assert!(
+        view.model_error
+            .as_ref()
+            .unwrap()
+            .contains("kept in the project"),
+        "{:?}",
+        view.model_error
+    );
+    assert_eq!(
+        params.session.read(|s| s.model_path.clone()).as_deref(),
+        Some("/nonexistent/nudgebar-model")
+    );
+    drop(handle);
+    drop(audio);
+}
