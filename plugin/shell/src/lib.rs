@@ -44,7 +44,7 @@ use params::NudgebarParams;
 use status::Shared;
 use std::sync::atomic::Ordering;
 use std::sync::Arc;
-use voices::{NoteSink, Source, Voices};
+use voices::{KeyAction, NoteSink, Source, Voices};
 use worker::{BuiltinModel, WorkerHandle};
 
 /// The plugin's CLAP id.
@@ -371,42 +371,25 @@ impl Plugin for Nudgebar {
 }
 
 impl Nudgebar {
-    /// Feeds an input note to the capture.
+    /// Feeds an input key action to the capture.
     fn observe(&mut self, clock: &clock::BlockClock, event: &NoteEvent<()>) {
-        match *event {
-            NoteEvent::NoteOn {
+        match voices::key_action(event) {
+            Some(KeyAction::Down {
                 timing,
                 channel,
                 key,
                 velocity,
                 ..
-            } => {
-                let (Some(c), Some(k)) = (channel.number(), key.number()) else {
-                    return;
-                };
-                if velocity <= 0.0 {
-                    self.capture.note_off(clock, timing, Some(c), Some(k));
-                } else {
-                    let v = (velocity * 127.0).round().clamp(1.0, 127.0) as u8;
-                    self.capture.note_on(clock, timing, c, k, v);
-                }
+            }) => {
+                let v = (velocity * 127.0).round().clamp(1.0, 127.0) as u8;
+                self.capture.note_on(clock, timing, channel, key, v);
             }
-            NoteEvent::NoteOff {
+            Some(KeyAction::Up {
                 timing,
                 channel,
                 key,
-                ..
-            }
-            | NoteEvent::Choke {
-                timing,
-                channel,
-                key,
-                ..
-            } => {
-                self.capture
-                    .note_off(clock, timing, channel.number(), key.number());
-            }
-            _ => {}
+            }) => self.capture.note_off(clock, timing, channel, key),
+            None => {}
         }
     }
 

@@ -174,17 +174,29 @@ fn note_off(timing: u32, voice_id: VoiceID, channel: u8, key: u8) -> NoteEvent<(
     }
 }
 
-/// Passes one input event on according to the listen mode: notes go through
-/// the tracker (or are held back when only the take is heard); channel-wide
-/// messages (controllers, pitch bend, program change) always pass, since they
-/// shape whatever the track is playing.
-pub fn pass_input(
-    event: NoteEvent<()>,
-    passes_notes: bool,
-    voices: &mut Voices,
-    sink: &mut impl NoteSink,
-) {
-    match event {
+/// What an input event does to a key, with the MIDI conventions folded in:
+/// a note-on with velocity 0 is a release (MIDI 1.0), a choke is a release,
+/// and `None` channel/key on a release is a CLAP wildcard (-1, "all").
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum KeyAction {
+    Down {
+        timing: u32,
+        channel: u8,
+        key: u8,
+        velocity: f32,
+        voice_id: VoiceID,
+    },
+    Up {
+        timing: u32,
+        channel: Option<u8>,
+        key: Option<u8>,
+    },
+}
+
+/// Reads an event as a key action; `None` for everything else (and for a
+/// note-on without a definite key, which cannot be played).
+pub fn key_action(event: &NoteEvent<()>) -> Option<KeyAction> {
+    match *event {
         NoteEvent::NoteOn {
             timing,
             voice_id,
@@ -192,15 +204,22 @@ pub fn pass_input(
             key,
             velocity,
         } => {
-            let (Some(c), Some(k)) = (channel.number(), key.number()) else {
-                return;
-            };
-            if velocity <= 0.0 {
-                // MIDI 1.0: a note-on with velocity 0 is a note-off.
-                voices.stop(sink, Source::Input, timing, c, k);
-            } else if passes_notes {
-                voices.start(sink, Source::Input, timing, c, k, velocity, voice_id);
-            }
+            let (channel, key) = (channel.number()?, key.number()?);
+            Some(if velocity <= 0.0 {
+                KeyAction::Up {
+                    timing,
+                    channel: Some(channel),
+                    key: Some(key),
+                }
+            } else {
+                KeyAction::Down {
+                    timing,
+                    channel,
+                    key,
+                    velocity,
+                    voice_id,
+                }
+            })
         }
         NoteEvent::NoteOff {
             timing,
@@ -213,11 +232,60 @@ pub fn pass_input(
             channel,
             key,
             ..
-        } => {
-            voices.stop_matching(sink, Source::Input, timing, channel.number(), key.number());
+        } => Some(KeyAction::Up {
+            timing,
+            channel: channel.number(),
+            key: key.number(),
+        }),
+        _ => None,
+    }
+}
+
+/// Passes one input event on according to the listen mode: notes go through
+/// the tracker (or are held back when only the take is heard); channel-wide
+/// messages (controllers, pitch bend, program change) always pass, since they
+/// shape whatever the track is playing.
+pub fn pass_input(
+    event: NoteEvent<()>,
+    passes_notes: bool,
+    voices: &mut Voices,
+    sink: &mut impl NoteSink,
+) {
+    match key_action(&event) {
+        Some(KeyAction::Down {
+            timing,
+            channel,
+            key,
+            velocity,
+            voice_id,
+        }) => {
+            if passes_notes {
+                voices.start(
+                    sink,
+                    Source::Input,
+                    timing,
+                    channel,
+                    key,
+                    velocity,
+                    voice_id,
+                );
+            }
+            return;
         }
-        // Sent by plugins to hosts, never forwarded.
-        NoteEvent::VoiceTerminated { .. } => {}
+        Some(KeyAction::Up {
+            timing,
+            channel,
+            key,
+        }) => {
+            voices.stop_matching(sink, Source::Input, timing, channel, key);
+            return;
+        }
+        None => {}
+    }
+    match event {
+        // Sent by plugins to hosts, never forwarded; and a note-on with a
+        // wildcard key names no key to play.
+        NoteEvent::VoiceTerminated { .. } | NoteEvent::NoteOn { .. } => {}
         NoteEvent::PolyPressure { channel, key, .. }
         | NoteEvent::PolyVolume { channel, key, .. }
         | NoteEvent::PolyPan { channel, key, .. }
