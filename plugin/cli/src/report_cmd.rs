@@ -28,6 +28,10 @@ pub struct ReportArgs {
     /// The map's y: a latent dimension (default: the first one no axis owns).
     #[arg(long)]
     map_dimension: Option<usize>,
+    /// Also write a copy of the package whose manifest carries each axis's
+    /// measured hole rate, so the plugin's editor can shade unreliable slider stretches.
+    #[arg(long, value_name = "FOLDER")]
+    package_out: Option<PathBuf>,
 }
 
 pub fn run(args: ReportArgs) -> Result<(), String> {
@@ -77,6 +81,22 @@ pub fn run(args: ReportArgs) -> Result<(), String> {
         &serde_json::to_string_pretty(&report).expect("the report serializes"),
     )?;
     write("report.html", &page)?;
+    if let Some(dir) = &args.package_out {
+        let mut package = engine.package().clone();
+        for axis in &mut package.manifest.axes {
+            if let Some(f) = report
+                .axes
+                .iter()
+                .find(|f| f.attribute.key() == axis.attribute)
+            {
+                axis.hole_rate = f.hole_rate.iter().map(|h| *h as f32).collect();
+            }
+        }
+        package
+            .save(dir)
+            .map_err(|e| format!("cannot write the package to {}: {e}", dir.display()))?;
+        println!("wrote the package with hole rates to {}", dir.display());
+    }
     for a in &report.axes {
         let worst = a.hole_rate.iter().copied().fold(0.0, f64::max);
         println!(

@@ -84,15 +84,21 @@ pub fn page(report: &ModelReport) -> Result<String, String> {
         + m.values.iter().flatten().filter(|v| v.is_none()).count();
     let _ = writeln!(
         out,
-        "<h2>Map of {} around the first prompt</h2>\n<p>Each cell is one decode: the {} slider along x, an offset on latent dimension {} along y. Dark cells with a cross are holes (invalid, silent or unmeasurable decodes): {holes} of {} cells.</p>",
+        "<h2>Map of {} around the first prompt</h2>\n<p>Each cell is one decode: the {} slider along x, an offset on latent dimension {} along y. Pale cells measure low, deep blue high ({} to {}). Dark cells with a cross are holes (invalid, silent or unmeasurable decodes): {holes} of {} cells.</p>",
         m.attribute.label().to_lowercase(),
         m.axis.label().to_lowercase(),
         m.dimension,
+        fmt_extreme(m.values.iter().flatten().flatten().copied().reduce(f64::min)),
+        fmt_extreme(m.values.iter().flatten().flatten().copied().reduce(f64::max)),
         m.sliders.len() * m.offsets.len()
     );
     out.push_str(&plots::map_chart(m)?);
     out.push_str("\n</body></html>\n");
     Ok(out)
+}
+
+fn fmt_extreme(v: Option<f64>) -> String {
+    v.map_or_else(|| "–".to_string(), |v| format!("{v:.2}"))
 }
 
 const STYLE: &str = "body{font-family:sans-serif;max-width:1120px;margin:2em auto;color:#222}\

@@ -128,7 +128,7 @@ pub fn map_chart(map: &LatentMap) -> Result<String, String> {
         let mut chart = ChartBuilder::on(&root)
             .caption(
                 format!(
-                    "{} over {} × latent dimension {}",
+                    "{} across the {} slider and latent dimension {}",
                     map.attribute.label(),
                     map.axis.label().to_lowercase(),
                     map.dimension
