@@ -251,11 +251,6 @@ impl Plugin for Nudgebar {
         self.resumed = true;
     }
 
-    fn deactivate(&mut self) {
-        // Main thread: hand the take buffers back so the worker frees them.
-        self.link.give_back_all(&mut self.takes);
-    }
-
     fn process(
         &mut self,
         buffer: &mut Buffer,

@@ -141,14 +141,6 @@ impl AudioLink {
         self.commands.try_send(command).is_ok()
     }
 
-    /// Hands every box back to the worker; at deactivation (main thread).
-    pub fn give_back_all(&mut self, current: &mut Option<Box<TakeSet>>) {
-        if let Some(old) = current.take() {
-            self.give_back(old);
-        }
-        self.return_held();
-    }
-
     fn give_back(&mut self, set: Box<TakeSet>) {
         match self.spent.try_send(set) {
             Ok(()) => {}

@@ -283,6 +283,24 @@ fn takes_are_heard_on_their_samples(tempo: f64, ts: TimeSignature) {
         assert_eq!(h.1, w.1);
         assert!(h.0.abs_diff(w.0) <= 1, "{tempo} BPM {ts}: {h:?} vs {w:?}");
     }
+    // The host suspends and resumes the track: the takes stay, and the next
+    // loop is heard at once (nothing needs to be remade by the worker).
+    p.deactivate();
+    activate(&mut p);
+    let resumed_from = ledger.starts.len();
+    let next_loop = ((sample as f64 / spb) / bar).ceil() * bar;
+    while (sample as f64 / spb) < next_loop + bar {
+        run(&mut p, &mut host, &mut ledger, &mut sample, &[]);
+    }
+    let generation = shared
+        .audio
+        .generation
+        .load(std::sync::atomic::Ordering::Relaxed);
+    assert_eq!(generation, view.generation, "no new set was needed");
+    assert!(
+        ledger.starts.len() - resumed_from >= take.notes.len(),
+        "the take plays on after reactivation"
+    );
     // Stopping the transport silences everything.
     host.transport.playing = false;
     run(&mut p, &mut host, &mut ledger, &mut sample, &[]);
