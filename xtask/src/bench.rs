@@ -17,9 +17,19 @@ pub fn run(args: &[String]) -> Result<()> {
             .output()
             .context("the audio section counts instructions with valgrind, which is not installed (Debian: `apt-get install valgrind`)")?;
     }
-    crate::run_cmd(Command::new("cargo").args(["build", "--release", "-p", "nudgebar-bench", "--bins"]))?;
+    crate::run_cmd(Command::new("cargo").args([
+        "build",
+        "--release",
+        "-p",
+        "nudgebar-bench",
+        "--bins",
+    ]))?;
+    // Where cargo put it: $CARGO_TARGET_DIR if set, else the workspace's target/.
+    let target = std::env::var_os("CARGO_TARGET_DIR")
+        .map(std::path::PathBuf::from)
+        .unwrap_or_else(|| crate::root().join("target"));
     crate::run_cmd(
-        Command::new(crate::root().join("target/release/bench"))
+        Command::new(target.join("release/bench"))
             .args(args)
             .env("NUDGEBAR_PYTHON", &python),
     )

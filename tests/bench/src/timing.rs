@@ -21,7 +21,7 @@ pub struct Timing {
 /// How long one round should take: long enough that timer resolution and
 /// scheduling noise are small, short enough that a full bench stays quick.
 const ROUND: Duration = Duration::from_millis(20);
-pub const ROUNDS: u32 = 15;
+pub const ROUNDS: u32 = 31;
 
 /// Calls per round so that a round takes about `ROUND`; measured from a
 /// few calls after one warm-up call (first calls pay for lazy set-up).
