@@ -11,7 +11,7 @@
 //! stay under [`MAX_SINGLE_ALLOCATION`] and [`MAX_TOTAL_ALLOCATION`], which
 //! holds only if size caps are checked before anything is read or built.
 
-use nudgebar_engine::{Engine, NoteChoice, VariationRequest};
+use nudgebar_engine::{NoteChoice, VariationRequest};
 use nudgebar_music::{Note, Phrase, TimeSignature};
 use nudgebar_tests::hostile::{self, Case, Category, Expect, Input};
 use std::alloc::{GlobalAlloc, Layout, System};
@@ -31,9 +31,9 @@ const HANG_TIMEOUT: Duration = Duration::from_secs(30);
 // ---------------------------------------------------------------------------
 // Counting allocator
 
-/// Per-thread tally: (watching, largest single request, total requested).
-/// A `const` thread-local without a destructor never allocates itself, so it
-/// is safe to touch from inside the allocator.
+// Per-thread tally: (watching, largest single request, total requested).
+// A `const` thread-local without a destructor never allocates itself, so it
+// is safe to touch from inside the allocator.
 thread_local! {
     static TALLY: Cell<(bool, usize, usize)> = const { Cell::new((false, 0, 0)) };
 }
@@ -85,7 +85,7 @@ fn tallied<R>(f: impl FnOnce() -> R) -> (R, usize, usize) {
 // Running one case
 
 enum Outcome {
-    Loaded(Engine),
+    Loaded,
     Refused(nudgebar_engine::ModelError),
     Panicked(String),
 }
@@ -106,7 +106,7 @@ fn run(input: &Input) -> Option<Run> {
         let (result, max_alloc, total_alloc) =
             tallied(|| catch_unwind(AssertUnwindSafe(|| hostile::load(&input))));
         let outcome = match result {
-            Ok(Ok(engine)) => Outcome::Loaded(engine),
+            Ok(Ok(_engine)) => Outcome::Loaded,
             Ok(Err(e)) => Outcome::Refused(e),
             Err(payload) => Outcome::Panicked(
                 payload
@@ -143,8 +143,10 @@ fn sentence_problems(text: &str, words: &[&str]) -> Vec<String> {
     problems
 }
 
-fn scratch() -> std::path::PathBuf {
-    nudgebar_tests::scratch_dir("hostile-models")
+/// Each test writes its own copy of the file-system cases: tests run in
+/// parallel and `scratch_dir` empties the folder it hands out.
+fn scratch(test: &str) -> std::path::PathBuf {
+    nudgebar_tests::scratch_dir(&format!("hostile-models-{test}"))
 }
 
 // ---------------------------------------------------------------------------
@@ -152,7 +154,7 @@ fn scratch() -> std::path::PathBuf {
 
 #[test]
 fn every_hostile_package_is_refused_clearly_without_panic_hang_or_unbounded_allocation() {
-    let scratch = scratch();
+    let scratch = scratch("refused");
     let cases = hostile::cases(&scratch);
     let refusals = cases
         .iter()
@@ -195,14 +197,14 @@ fn every_hostile_package_is_refused_clearly_without_panic_hang_or_unbounded_allo
                 }
                 table.push((case.category, case.name, text, run.max_alloc));
             }
-            (Expect::Refused { variant, .. }, Outcome::Loaded(_)) => {
+            (Expect::Refused { variant, .. }, Outcome::Loaded) => {
                 failures.push(format!("{}: accepted, expected {variant}", case.name))
             }
             (Expect::LoadsButDecodesGarbage, Outcome::Refused(e)) => failures.push(format!(
                 "{}: refused ({e}), but its graphs are valid",
                 case.name
             )),
-            (Expect::LoadsButDecodesGarbage, Outcome::Loaded(_)) => {}
+            (Expect::LoadsButDecodesGarbage, Outcome::Loaded) => {}
         }
     }
     // What a user sees, per case (run with --nocapture for the reliability table).
@@ -221,7 +223,7 @@ fn every_hostile_package_is_refused_clearly_without_panic_hang_or_unbounded_allo
 
 #[test]
 fn every_category_has_hostile_cases() {
-    let cases = hostile::cases(&scratch());
+    let cases = hostile::cases(&scratch("categories"));
     for category in Category::ALL {
         let n = cases.iter().filter(|c| c.category == category).count();
         assert!(n >= 3, "{}: only {n} cases", category.label());
@@ -250,7 +252,7 @@ fn prompts() -> Vec<(&'static str, Phrase)> {
 /// in both note-choice modes, and the hole guard counts what it repaired.
 #[test]
 fn garbage_decoders_still_give_sane_takes() {
-    let scratch = scratch();
+    let scratch = scratch("garbage");
     let garbage: Vec<Case> = hostile::cases(&scratch)
         .into_iter()
         .filter(|c| matches!(c.expect, Expect::LoadsButDecodesGarbage))
