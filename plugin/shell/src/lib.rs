@@ -12,7 +12,7 @@
 //!   [`buffers`] the take/prompt buffers that cross them.
 //! - what is saved with the project: [`state`]; parameters: [`params`].
 //! - kept takes to MIDI files: [`export`]; presets: [`presets`].
-//! - what the editor may read: [`status`].
+//! - what the editor may read: [`status`]; the editor window: [`editor`].
 //!
 //! For hosts and the test harness: CLAP id [`CLAP_ID`], one note input
 //! and one note output port, no audio ports. Parameter ids are listed in
@@ -23,6 +23,7 @@ pub mod audition;
 pub mod buffers;
 pub mod capture;
 pub mod clock;
+pub mod editor;
 pub mod export;
 pub mod link;
 pub mod params;
@@ -225,12 +226,20 @@ impl Plugin for Nudgebar {
     const SAMPLE_ACCURATE_AUTOMATION: bool = false;
     const INPUT_EVENT_CAPACITY: usize = EVENT_CAPACITY;
 
-    type Editor = ();
+    type Editor = editor::NudgebarEditor;
     type SysExMessage = ();
     type BackgroundTask = ();
 
     fn params(&self) -> Arc<dyn Params> {
         self.params.clone()
+    }
+
+    fn editor(&mut self, _async_executor: AsyncExecutor<Self>) -> Option<Self::Editor> {
+        editor::create(
+            self.params.clone(),
+            self.shared.clone(),
+            self.commands.clone(),
+        )
     }
 
     fn activate(
@@ -348,6 +357,7 @@ impl Plugin for Nudgebar {
 
         // 7. What the editor shows.
         let facts = &self.shared.audio;
+        facts.blocks.fetch_add(1, Ordering::Release);
         facts.set_capture(self.capture.status(&clock));
         facts.generation.store(
             self.takes.as_ref().map_or(0, |s| s.generation),

@@ -91,6 +91,9 @@ pub struct AudioFacts {
     pub keeps_refused: AtomicU32,
     /// True while a take is sounding.
     pub auditioning: AtomicBool,
+    /// Blocks processed so far: tells the editor the audio thread has run
+    /// since a parameter changed (see `editor/press.rs`).
+    pub blocks: AtomicU64,
 }
 
 impl AudioFacts {
