@@ -168,3 +168,55 @@ fn derive_axes_needs_a_corpus_and_says_so() {
     let o = run(&["derive-axes", &empty.display().to_string(), "--out", &out]);
     assert!(String::from_utf8_lossy(&o.stderr).contains("no readable .mid files"));
 }
+
+#[test]
+fn blend_makes_in_between_takes_from_vary_json() {
+    let dir = scratch_dir("steer_cli_blend");
+    let takes = dir.join("takes").display().to_string();
+    let v = ok_json(&[
+        "vary",
+        PROMPT,
+        "--slide",
+        "note_density=0.8",
+        "--takes",
+        "2",
+        "--out",
+        &takes,
+        "--json",
+    ]);
+    let json = dir.join("vary.json");
+    std::fs::write(&json, v.to_string()).unwrap();
+    let (json, out) = (
+        json.display().to_string(),
+        dir.join("blend").display().to_string(),
+    );
+    let o = run(&[
+        "blend",
+        PROMPT,
+        "--from",
+        &json,
+        "--take",
+        "2",
+        "--steps",
+        "3",
+        "--spherical",
+        "--out",
+        &out,
+    ]);
+    assert!(o.status.success(), "{}", String::from_utf8_lossy(&o.stderr));
+    for i in 1..=3 {
+        let f = dir
+            .join(format!("blend/blend-{i:02}.mid"))
+            .display()
+            .to_string();
+        let read = pyref::run_json("smf_read.py", &[&f]);
+        assert!(
+            !read["mido"].as_array().unwrap().is_empty(),
+            "blend {i} is silent"
+        );
+    }
+    let o = run(&[
+        "blend", PROMPT, "--from", &json, "--take", "3", "--out", &out,
+    ]);
+    assert!(String::from_utf8_lossy(&o.stderr).contains("holds takes 1 to 2"));
+}

@@ -3,6 +3,7 @@
 //! Errors are one line on stderr and exit code 1, never a backtrace.
 
 mod aim;
+mod blend;
 mod derive;
 mod inspect;
 mod model;
@@ -38,6 +39,8 @@ enum Command {
     },
     /// Search one axis for a take that measures a target value (e.g. note_density=7).
     Aim(aim::AimArgs),
+    /// In-between takes from the prompt toward a kept take (from `vary --json`).
+    Blend(blend::BlendArgs),
     /// Derive axes for a plain VAE from a folder of your own .mid files.
     DeriveAxes(derive::DeriveArgs),
     /// Measure how well a model's axes steer and where it decodes badly: JSON + HTML.
@@ -50,6 +53,7 @@ fn main() {
         Command::Vary(args) => vary::run(args),
         Command::Inspect { model, json } => inspect::run(model.as_deref(), json),
         Command::Aim(args) => aim::run(args),
+        Command::Blend(args) => blend::run(args),
         Command::DeriveAxes(args) => derive::run(args),
         Command::Report(args) => report_cmd::run(args),
     };
