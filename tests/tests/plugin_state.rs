@@ -78,8 +78,8 @@ fn kept_takes_and_the_prompt_survive_a_reopened_project() {
     let mut reopened = nudgebar();
     reopened.load_state(&blob).unwrap();
     assert_eq!(kept_phrases(&mut reopened), kept, "kept takes survive");
-    // The prompt survives (its captured onsets to 1e-12 beats: see
-    // `reopened_project_saves_byte_identical_state` for the last bits).
+    // The prompt survives, note for note (the bytes are compared in
+    // `reopened_project_saves_byte_identical_state`).
     let reloaded: nudgebar_music::Phrase =
         serde_json::from_value(saved_session(&mut reopened)["prompt"]["phrase"].clone()).unwrap();
     assert_eq!(reloaded.notes.len(), prompt.notes.len());
@@ -157,10 +157,9 @@ fn a_broken_blob_changes_nothing_and_a_damaged_take_is_dropped_alone() {
 /// Save → load → save must give the same bytes even when the captured
 /// prompt holds onsets with 17 significant digits (as captured at an odd
 /// tempo). serde_json parses such numbers up to one unit in the last place
-/// off unless its `float_roundtrip` feature is on, so the reopened project
-/// saves slightly different numbers.
+/// off unless its `float_roundtrip` feature is on (the workspace turns it on;
+/// this test is what noticed it was missing).
 #[test]
-#[ignore = "known bug: serde_json is built without `float_roundtrip`, so 17-digit onsets in the saved prompt come back one ulp off; fix: `serde_json = { version = \"1\", features = [\"float_roundtrip\"] }` in the root Cargo.toml (reported to the lead)"]
 fn reopened_project_saves_byte_identical_state() {
     let model = tiny_model_folder("plugin-state-bytes");
     let ts = TimeSignature::new(3, 4).unwrap();
