@@ -308,7 +308,7 @@ fn layout(
                         egui::ScrollArea::vertical()
                             .id_salt("takes")
                             .max_height(290.0)
-                            .show(ui, |ui| takes::grid(ui, &screen.takes, generation, actions));
+                            .show(ui, |ui| takes::grid(ui, &screen.takes, screen.pitch_window, generation, actions));
                     }
                 });
                 card(ui, "KEPT", |ui| {
@@ -378,8 +378,9 @@ fn prompt(ui: &mut Ui, screen: &Screen) {
     ui.label(RichText::new(&p.summary).color(theme::TEXT));
     piano_roll::show(
         ui,
-        egui::vec2(ui.available_width(), 84.0),
+        egui::vec2(ui.available_width(), 96.0),
         p.phrase.as_ref(),
+        screen.pitch_window,
         theme::LAMP,
     );
     if !p.readings.is_empty() {

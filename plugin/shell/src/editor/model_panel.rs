@@ -25,11 +25,13 @@ pub fn show(ui: &mut Ui, panel: &ModelPanel, path: &mut String, actions: &mut Ve
     if !panel.source.is_empty() {
         ui.label(RichText::new(&panel.source).size(11.0).color(theme::DIM));
     }
-    if !panel.description.is_empty() {
-        ui.add(egui::Label::new(RichText::new(&panel.description).size(11.0)).wrap());
+    if !panel.summary.is_empty() {
+        ui.add(egui::Label::new(RichText::new(&panel.summary).size(11.0)).wrap())
+            .on_hover_text(&panel.description);
     }
-    for axis in &panel.axes {
-        ui.label(RichText::new(axis).size(11.0).color(theme::DIM));
+    if !panel.axes.is_empty() {
+        ui.label(RichText::new(&panel.axes_line).size(11.0).color(theme::DIM))
+            .on_hover_text(panel.axes.join("\n"));
     }
     if let Some(error) = &panel.error {
         egui::Frame::new()

@@ -5,36 +5,20 @@ use super::theme;
 use egui::{pos2, Color32, CornerRadius, Painter, Rect, Stroke};
 use nudgebar_music::Phrase;
 
-/// Fewest semitones a roll shows, so a call on two pitches does not fill
-/// the whole height with two fat bars.
-const MIN_ROWS: u8 = 13;
-
-/// The pitch window a roll shows: lowest and highest row, inclusive.
-pub fn pitch_window(phrase: &Phrase) -> (u8, u8) {
-    let lo = phrase.notes.iter().map(|n| n.pitch).min();
-    let hi = phrase.notes.iter().map(|n| n.pitch).max();
-    let (lo, hi) = match lo.zip(hi) {
-        Some(pair) => pair,
-        // A silent phrase: middle of the keyboard.
-        None => (60, 60),
-    };
-    // Pad to at least MIN_ROWS, centred on the notes, with one free row
-    // above and below so the outermost notes do not touch the frame.
-    let span = (hi - lo + 3).max(MIN_ROWS);
-    let extra = span - (hi - lo + 1);
-    let below = extra / 2;
-    let lo = lo.saturating_sub(below);
-    let hi = (lo as u16 + span as u16 - 1).min(127) as u8;
-    (lo, hi)
-}
-
-/// Paints `phrase` into `rect`. `None` paints an empty roll (no prompt yet).
-pub fn paint(painter: &Painter, rect: Rect, phrase: Option<&Phrase>, notes: Color32) {
+/// Paints `phrase` into `rect` over the pitch rows `window` (lowest,
+/// highest; see `view_model::pitch_window`). `None` paints an empty roll.
+pub fn paint(
+    painter: &Painter,
+    rect: Rect,
+    phrase: Option<&Phrase>,
+    window: (u8, u8),
+    notes: Color32,
+) {
     painter.rect_filled(rect, CornerRadius::same(3), theme::ROLL);
     let Some(phrase) = phrase else {
         return;
     };
-    let (lo, hi) = pitch_window(phrase);
+    let (lo, hi) = window;
     let rows = (hi - lo + 1) as f32;
     let row_h = rect.height() / rows;
     let y_of = |pitch: u8| rect.bottom() - (pitch - lo + 1) as f32 * row_h;
@@ -99,41 +83,10 @@ pub fn show(
     ui: &mut egui::Ui,
     size: egui::Vec2,
     phrase: Option<&Phrase>,
+    window: (u8, u8),
     notes: Color32,
 ) -> egui::Response {
     let (rect, response) = ui.allocate_exact_size(size, egui::Sense::hover());
-    paint(ui.painter(), rect, phrase, notes);
+    paint(ui.painter(), rect, phrase, window, notes);
     response
-}
-
-#[cfg(test)]
-mod tests {
-    use super::*;
-    use nudgebar_music::{Note, TimeSignature};
-
-    fn phrase(pitches: &[u8]) -> Phrase {
-        let notes = pitches
-            .iter()
-            .enumerate()
-            .map(|(i, &p)| Note::new(p, i as f64 * 0.5, 0.5, 90))
-            .collect();
-        Phrase::new(TimeSignature::FOUR_FOUR, 1, notes)
-    }
-
-    #[test]
-    fn the_window_covers_every_note_with_a_free_row_each_side() {
-        let (lo, hi) = pitch_window(&phrase(&[55, 79]));
-        assert_eq!((lo, hi), (54, 80));
-        // Narrow calls get at least MIN_ROWS rows, centred.
-        let (lo, hi) = pitch_window(&phrase(&[60, 62]));
-        assert_eq!(hi - lo + 1, MIN_ROWS);
-        assert!(lo < 60 && hi > 62);
-        // The keyboard's ends do not overflow.
-        let (lo, hi) = pitch_window(&phrase(&[0, 127]));
-        assert_eq!((lo, hi), (0, 127));
-        assert_eq!(
-            pitch_window(&phrase(&[])).1 - pitch_window(&phrase(&[])).0 + 1,
-            MIN_ROWS
-        );
-    }
 }

@@ -8,11 +8,17 @@ use egui::{pos2, vec2, Align2, CornerRadius, FontId, Rect, Sense, Stroke, Stroke
 
 /// Card size in points: four fit across the right-hand column.
 pub const CARD_WIDTH: f32 = 150.0;
-const ROLL_HEIGHT: f32 = 52.0;
+const ROLL_HEIGHT: f32 = 64.0;
 const LINE_HEIGHT: f32 = 15.0;
 
 /// Draws the grid; clicking a card selects it, its button keeps it.
-pub fn grid(ui: &mut Ui, cards: &[TakeCard], generation: u64, actions: &mut Vec<Action>) {
+pub fn grid(
+    ui: &mut Ui,
+    cards: &[TakeCard],
+    window: (u8, u8),
+    generation: u64,
+    actions: &mut Vec<Action>,
+) {
     let per_row = ((ui.available_width() + 8.0) / (CARD_WIDTH + 8.0))
         .floor()
         .max(1.0) as usize;
@@ -20,14 +26,20 @@ pub fn grid(ui: &mut Ui, cards: &[TakeCard], generation: u64, actions: &mut Vec<
         ui.horizontal(|ui| {
             ui.spacing_mut().item_spacing.x = 8.0;
             for card in row {
-                card_ui(ui, card, generation, actions);
+                card_ui(ui, card, window, generation, actions);
             }
         });
         ui.add_space(4.0);
     }
 }
 
-fn card_ui(ui: &mut Ui, card: &TakeCard, generation: u64, actions: &mut Vec<Action>) {
+fn card_ui(
+    ui: &mut Ui,
+    card: &TakeCard,
+    window: (u8, u8),
+    generation: u64,
+    actions: &mut Vec<Action>,
+) {
     let lines = card.changes.len() as f32;
     let height = 24.0 + ROLL_HEIGHT + 6.0 + lines * LINE_HEIGHT + 6.0;
     let (rect, response) = ui.allocate_exact_size(vec2(CARD_WIDTH, height), Sense::click());
@@ -72,7 +84,7 @@ fn card_ui(ui: &mut Ui, card: &TakeCard, generation: u64, actions: &mut Vec<Acti
         pos2(inner.left(), inner.top() + 18.0),
         vec2(inner.width(), ROLL_HEIGHT),
     );
-    piano_roll::paint(painter, roll, Some(&card.phrase), theme::TIDE);
+    piano_roll::paint(painter, roll, Some(&card.phrase), window, theme::TIDE);
 
     let mut y = roll.bottom() + 6.0 + LINE_HEIGHT / 2.0;
     for change in &card.changes {

@@ -41,6 +41,9 @@ pub struct Screen {
     pub header: Header,
     pub prompt: PromptView,
     pub sliders: Vec<SliderView>,
+    /// Pitch rows every roll shows (lowest, highest), shared by the prompt
+    /// and all takes so their registers compare at a glance.
+    pub pitch_window: (u8, u8),
     /// Heading of the sliders' take column: which take is measured.
     pub take_column: String,
     pub takes: Vec<TakeCard>,
@@ -149,7 +152,12 @@ pub struct ModelPanel {
     /// "built-in demo model" or the folder it came from.
     pub source: String,
     pub fingerprint: String,
+    /// The description's first sentence, for the panel (the whole
+    /// description is shown on hover).
+    pub summary: String,
     pub description: String,
+    /// "Axes: Density, Range, Syncopation, Contour".
+    pub axes_line: String,
     /// One line per axis: "Density → note density (slider 1)".
     pub axes: Vec<String>,
     /// Why the last load failed, as the worker said it.
@@ -177,6 +185,7 @@ pub fn screen(input: &Inputs) -> Screen {
         header: header(input),
         prompt: prompt(w),
         sliders: sliders(input, selected_take.map(|t| &t.attributes)),
+        pitch_window: pitch_window(w.prompt.iter().chain(w.takes.iter().map(|t| &t.phrase))),
         take_column: match selected_take {
             Some(_) => format!("Take {} (selected)", input.selected + 1),
             None => "Selected take".into(),
@@ -351,6 +360,30 @@ fn sliders(input: &Inputs, take: Option<&Readout>) -> Vec<SliderView> {
     rows
 }
 
+/// Fewest semitones a roll shows, so a call on two pitches does not fill
+/// the whole height with two fat bars.
+pub const MIN_ROWS: u8 = 13;
+
+/// The pitch rows the rolls show: every note of `phrases`, padded to at
+/// least [`MIN_ROWS`] around their middle, with a free row above and below.
+pub fn pitch_window<'a>(phrases: impl Iterator<Item = &'a Phrase>) -> (u8, u8) {
+    let mut range: Option<(u8, u8)> = None;
+    for n in phrases.flat_map(|p| p.notes.iter()) {
+        range = Some(match range {
+            None => (n.pitch, n.pitch),
+            Some((lo, hi)) => (lo.min(n.pitch), hi.max(n.pitch)),
+        });
+    }
+    // Nothing to show: the middle of the keyboard.
+    let (lo, hi) = range.unwrap_or((60, 60));
+    let (lo, hi) = (lo.min(127), hi.min(127));
+    let span = (hi - lo + 3).max(MIN_ROWS);
+    let below = (span - (hi - lo + 1)) / 2;
+    let lo = lo.saturating_sub(below);
+    let hi = (lo as u16 + span as u16 - 1).min(127) as u8;
+    (lo, hi)
+}
+
 /// Hole rates below this are noise from the report, not worth shading.
 const HOLE_SHADE_FROM: f32 = 0.05;
 
@@ -445,7 +478,9 @@ fn model_panel(w: &WorkerView) -> ModelPanel {
             name: "No model loaded".into(),
             source: String::new(),
             fingerprint: String::new(),
+            summary: String::new(),
             description: String::new(),
+            axes_line: String::new(),
             axes: Vec::new(),
             error: w.model_error.clone(),
         };
@@ -457,7 +492,16 @@ fn model_panel(w: &WorkerView) -> ModelPanel {
             Some(f) => f.display().to_string(),
         },
         fingerprint: m.identity.fingerprint.chars().take(12).collect(),
+        summary: first_sentence(&m.description, 150),
         description: m.description.clone(),
+        axes_line: format!(
+            "Axes: {}",
+            m.axes
+                .iter()
+                .map(|a| a.label.as_str())
+                .collect::<Vec<_>>()
+                .join(", ")
+        ),
         axes: m
             .axes
             .iter()
@@ -467,6 +511,18 @@ fn model_panel(w: &WorkerView) -> ModelPanel {
             })
             .collect(),
         error: w.model_error.clone(),
+    }
+}
+
+/// The first sentence of `text`, cut at `max` characters with an ellipsis.
+pub fn first_sentence(text: &str, max: usize) -> String {
+    let end = text.find(". ").map(|i| i + 1).unwrap_or(text.len());
+    let sentence = text[..end].trim();
+    if sentence.chars().count() <= max {
+        sentence.to_string()
+    } else {
+        let cut: String = sentence.chars().take(max.saturating_sub(1)).collect();
+        format!("{}…", cut.trim_end())
     }
 }
 
@@ -849,6 +905,12 @@ mod tests {
         assert_eq!(s.model.name, "ferry calls");
         assert_eq!(s.model.source, "built-in demo model");
         assert_eq!(s.model.fingerprint, "0123456789ab");
+        assert_eq!(s.model.axes_line, "Axes: Busier, Climb");
+        assert_eq!(
+            first_sentence("Trained on calls. Sliders move dims.", 80),
+            "Trained on calls."
+        );
+        assert_eq!(first_sentence("abcdefghij", 5), "abcd…");
         assert_eq!(
             s.model.axes,
             [
@@ -856,6 +918,38 @@ mod tests {
                 "Climb → Contour (slider 4)"
             ]
         );
+    }
+
+    #[test]
+    fn all_rolls_share_one_pitch_window_covering_every_note() {
+        let one = |pitches: &[u8]| {
+            let notes = pitches
+                .iter()
+                .enumerate()
+                .map(|(i, &p)| Note::new(p, i as f64 * 0.5, 0.5, 90))
+                .collect();
+            Phrase::new(TimeSignature::FOUR_FOUR, 1, notes)
+        };
+        let (low, high) = (one(&[55, 60]), one(&[70, 79]));
+        assert_eq!(pitch_window([&low, &high].into_iter()), (54, 80));
+        // Narrow calls get at least MIN_ROWS rows, centred.
+        let (lo, hi) = pitch_window([&one(&[60, 62])].into_iter());
+        assert_eq!(hi - lo + 1, MIN_ROWS);
+        assert!(lo < 60 && hi > 62);
+        // The keyboard's ends do not overflow; silence shows middle C.
+        assert_eq!(pitch_window([&one(&[0, 127])].into_iter()), (0, 127));
+        let (lo, hi) = pitch_window(std::iter::empty());
+        assert!(lo <= 60 && hi >= 60 && hi - lo + 1 == MIN_ROWS);
+        // The screen uses the prompt and every take.
+        let w = view_with_takes();
+        let s = screen(&inputs(&w, &[]));
+        let all = [
+            w.prompt.as_ref().unwrap(),
+            &w.takes[0].phrase,
+            &w.takes[1].phrase,
+        ];
+        assert_eq!(s.pitch_window, pitch_window(all.into_iter()));
+        assert!(s.pitch_window.0 < 62 && s.pitch_window.1 > 71);
     }
 
     #[test]
