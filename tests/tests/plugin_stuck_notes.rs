@@ -147,16 +147,9 @@ fn every_disruption_ends_the_sounding_notes() {
         !open.is_empty(),
         "a note was sounding at deactivation (the host ends it)"
     );
-    // Nothing from before the deactivation sounds again.
-    s.run_beats(2.0).unwrap();
-    assert!(
-        s.ledger.sounding().is_empty(),
-        "after reactivation: {:?}",
-        s.ledger.sounding()
-    );
-    // A new seed makes new takes (see `takes_play_again_after_reactivation`
-    // for why this nudge is needed); they play, and end, as before.
-    set_text(&mut s, &ids.seed, "2");
+    // Nothing from before the deactivation sounds again, and the take
+    // carries on (a host reactivates to change the sample rate or block
+    // size; the composer should not have to touch anything).
     until_a_note_sounds(&mut s, "the end");
     s.run_beats(8.0).unwrap();
     disruptions += 1;
@@ -176,7 +169,6 @@ fn every_disruption_ends_the_sounding_notes() {
 /// A host deactivates and re-activates a plugin to change the sample rate or
 /// block size. The takes being auditioned should keep playing afterwards.
 #[test]
-#[ignore = "known plugin bug: deactivate() hands the take set back to the worker, which does not resend it until a control changes, so auditioning falls silent after a sample-rate or block-size change (reported to the plugin engineer)"]
 fn takes_play_again_after_reactivation() {
     let model = tiny_model_folder("plugin-reactivation");
     let (mut s, ids) = playing_session(120.0, TimeSignature::FOUR_FOUR, &model);
