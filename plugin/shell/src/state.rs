@@ -174,7 +174,11 @@ impl SessionState {
                                 if dropped > 0 {
                                     report.push(format!("Kept take {} (\"{}\"): {dropped} unreadable note(s) dropped.", i + 1, t.name));
                                 }
-                                kept.push(KeptTake { phrase, tempo: clean_tempo(t.tempo), ..t });
+                                let (settings, repaired) = clean_settings(t.settings.clone());
+                                if repaired {
+                                    report.push(format!("Kept take {} (\"{}\"): slider settings beyond range were reset.", i + 1, t.name));
+                                }
+                                kept.push(KeptTake { phrase, tempo: clean_tempo(t.tempo), settings, ..t });
                             }
                             None => report.push(format!("Kept take {} (\"{}\") had an impossible length or time signature and was dropped.", i + 1, t.name)),
                         },
@@ -237,6 +241,20 @@ fn clean_phrase(p: &Phrase) -> Option<(Phrase, usize)> {
     let phrase = Phrase::new(ts, p.measures, notes);
     dropped += p.notes.len() - dropped - phrase.notes.len();
     Some((phrase, dropped))
+}
+
+/// JSON numbers beyond f32's range arrive as infinity, which saves as
+/// `null` and would lose the whole take on the next load; such settings are
+/// reset (a slider value dropped, the spread set to 0). Returns whether any was.
+fn clean_settings(mut s: TakeSettings) -> (TakeSettings, bool) {
+    let before = s.offsets.len();
+    s.offsets.retain(|(_, v)| v.is_finite());
+    let mut repaired = s.offsets.len() != before;
+    if !s.spread.is_finite() {
+        s.spread = 0.0;
+        repaired = true;
+    }
+    (s, repaired)
 }
 
 fn clean_tempo(t: f64) -> f64 {
