@@ -40,15 +40,22 @@ pub struct TrainConfig {
 }
 
 impl Default for TrainConfig {
+    /// The shipped model's settings. Chosen from runs on the held-out proof
+    /// (Spearman ρ of range / contour, reconstruction at slider 0):
+    /// β 0.2, γ 1, 6000 steps: 0.61 / 0.85 / 70 %; β 0.05, γ 3: 0.66 / 0.79 /
+    /// 71 %; β 0.01, γ 5, 10k steps: 0.65 / 0.89 / 72 % but the range slider
+    /// dragged density along (0.48 of its own change); β 0.02, γ 3, 10k steps:
+    /// 0.61 / 0.84 / 74 % with the cleanest attribute-change matrix. δ = 10
+    /// as in the AR-VAE paper (from memory).
     fn default() -> Self {
         TrainConfig {
             seed: 0x5EED_F3E7,
-            steps: 6000,
+            steps: 10_000,
             batch: 128,
             learning_rate: 1e-3,
-            beta: 0.2,
+            beta: 0.02,
             beta_warmup: 2000,
-            gamma: 1.0,
+            gamma: 3.0,
             delta: 10.0,
             architecture: Architecture::default(),
         }
