@@ -4,6 +4,7 @@
 //! general-purpose libraries from PyPI (mido, pretty_midi, music21, onnx,
 //! onnxruntime), installed by `cargo xtask test` into `target/pyref`.
 
+pub mod cli;
 pub mod host;
 pub mod hostile;
 pub mod pyref;

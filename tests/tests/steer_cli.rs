@@ -5,36 +5,8 @@
 
 use nudgebar_engine::steer::KeyScale;
 use nudgebar_engine::ModelPackage;
-use nudgebar_tests::{pyref, scratch_dir, workspace_root};
-use std::path::PathBuf;
-use std::process::{Command, Output};
-use std::sync::OnceLock;
-
-/// Builds `nudge` once (debug, like the rest of the suite) and returns its path.
-fn nudge() -> PathBuf {
-    static BUILT: OnceLock<PathBuf> = OnceLock::new();
-    BUILT
-        .get_or_init(|| {
-            let root = workspace_root();
-            let cargo = std::env::var_os("CARGO").unwrap_or_else(|| "cargo".into());
-            let status = Command::new(cargo)
-                .args(["build", "--quiet", "-p", "nudgebar-cli", "--bin", "nudge"])
-                .current_dir(&root)
-                .status()
-                .expect("run cargo build");
-            assert!(status.success(), "building nudge failed");
-            root.join("target/debug/nudge")
-        })
-        .clone()
-}
-
-fn run(args: &[&str]) -> Output {
-    Command::new(nudge())
-        .args(args)
-        .current_dir(workspace_root())
-        .output()
-        .expect("run nudge")
-}
+use nudgebar_tests::cli::run;
+use nudgebar_tests::{pyref, scratch_dir};
 
 fn ok_json(args: &[&str]) -> serde_json::Value {
     let o = run(args);
