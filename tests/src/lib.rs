@@ -9,6 +9,7 @@ pub mod host;
 pub mod hostile;
 pub mod pyref;
 pub mod tiny_model;
+pub mod tract_run;
 
 use std::path::PathBuf;
 

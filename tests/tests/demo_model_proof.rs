@@ -11,8 +11,15 @@
 //! corpus_properties.rs.
 
 use nudgebar_engine::Engine;
-use nudgebar_onnx::tract_onnx::{self, prelude::*};
 use nudgebar_tests::{pyref, scratch_dir, workspace_root};
+
+/// Every output of the raw graph, flattened.
+fn tract_run(bytes: &[u8], shape: &[usize], data: &[f32]) -> Vec<Vec<f32>> {
+    nudgebar_tests::tract_run::tract_run(bytes, shape, data)
+        .into_iter()
+        .map(|(_, v)| v)
+        .collect()
+}
 use nudgebar_trainer::contract::{CLASSES, INPUT, LATENT, STEPS};
 use nudgebar_trainer::corpus;
 use nudgebar_trainer::dataset::Dataset;
@@ -21,30 +28,6 @@ use nudgebar_trainer::proof::{self, REGRESSION_FLOORS};
 use nudgebar_trainer::train::{train, TrainConfig};
 use nudgebar_trainer::vae::{Architecture, Vae};
 use serde_json::json;
-
-/// Runs an ONNX file with tract on one f32 input; returns every output flattened.
-fn tract_run(bytes: &[u8], shape: &[usize], data: &[f32]) -> Vec<Vec<f32>> {
-    let model = tract_onnx::onnx()
-        .model_for_read(&mut &bytes[..])
-        .expect("tract parses the file");
-    let plan = model
-        .into_optimized()
-        .expect("optimizes")
-        .into_runnable()
-        .expect("runnable");
-    let input = Tensor::from_shape(shape, data).unwrap();
-    plan.run(tvec!(input.into()))
-        .expect("tract runs the file")
-        .into_iter()
-        .map(|t| {
-            t.to_plain_array_view::<f32>()
-                .unwrap()
-                .iter()
-                .copied()
-                .collect()
-        })
-        .collect()
-}
 
 fn max_diff(a: &[f32], b: &[f32]) -> f32 {
     assert_eq!(a.len(), b.len(), "output lengths differ");

@@ -5,10 +5,10 @@
 //!   standard's reference validator, including shape inference;
 //! - `onnxruntime` 1.32.0: the reference runtime; tract must agree with it.
 
-use nudgebar_onnx::tract_onnx::{self, prelude::*};
 use nudgebar_onnx::{
     decoder_graph, encoder_graph, Activation, DecoderSpec, Dense, EncoderSpec, Layer,
 };
+use nudgebar_tests::tract_run::tract_run;
 use nudgebar_tests::{pyref, scratch_dir};
 use serde_json::json;
 
@@ -33,32 +33,6 @@ impl SplitMix {
         let b = (0..outputs).map(|_| self.next() * 0.1).collect();
         Dense::new(inputs, outputs, w, b)
     }
-}
-
-fn tract_run(bytes: &[u8], shape: &[usize], data: &[f32]) -> Vec<(Vec<usize>, Vec<f32>)> {
-    let model = tract_onnx::onnx()
-        .model_for_read(&mut &bytes[..])
-        .expect("tract parses the file");
-    let plan = model
-        .into_optimized()
-        .expect("optimizes")
-        .into_runnable()
-        .expect("runnable");
-    let input = Tensor::from_shape(shape, data).unwrap();
-    plan.run(tvec!(input.into()))
-        .expect("tract runs the file")
-        .into_iter()
-        .map(|t| {
-            (
-                t.shape().to_vec(),
-                t.to_plain_array_view::<f32>()
-                    .unwrap()
-                    .iter()
-                    .copied()
-                    .collect(),
-            )
-        })
-        .collect()
 }
 
 /// Writes the model and its input, asks the reference tools, and returns
