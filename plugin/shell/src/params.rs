@@ -143,7 +143,7 @@ pub struct NudgebarParams {
     /// Kept takes, the current prompt and the chosen model, saved with the
     /// project. The audio thread never touches it.
     #[persist = "session"]
-    pub session: Arc<SessionCell>,
+    pub session: SessionCell,
 }
 
 /// One axis slider, declared once for all six slots.
@@ -229,7 +229,7 @@ impl Default for NudgebarParams {
                 .with_value_to_string(formatters::v2s_bool_bypass())
                 .with_string_to_value(formatters::s2v_bool_bypass())
                 .make_bypass(),
-            session: Arc::new(SessionCell::default()),
+            session: SessionCell::default(),
         }
     }
 }

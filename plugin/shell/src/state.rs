@@ -1,269 +1,18 @@
-//! What Nudgebar saves inside the host's project: the current prompt, the
-//! kept takes and the chosen model folder.
-//!
-//! The session is one persisted field (`"session"` in nice-plug's state
-//! blob), JSON with a `version`. Loading never fails and never panics:
-//! every part is read on its own, what cannot be read is dropped, and a
-//! sentence saying what was dropped is kept in [`SessionState::load_report`]
-//! for the editor to show. (A blob that is not JSON at all is refused by
-//! nice-plug before it reaches us; the host then keeps the current session.)
+//! The session inside the running plugin: the saved data and its loader
+//! live in `nudgebar_contract::session` (tract-free, so it can be fuzzed);
+//! here it is shared between the host's state calls, the worker and the
+//! editor, and handed to nice-plug as the persisted `"session"` field.
 //!
 //! Threads: the host saves and loads on its main thread; the worker edits
 //! (new prompt, keep a take). The audio thread never touches the session,
 //! so the mutex here is never taken in `process()`.
 
+pub use nudgebar_contract::session::{
+    KeptTake, SavedPrompt, SessionState, TakeSettings, MAX_KEPT, STATE_VERSION,
+};
 use nice_plug::params::persist::PersistentField;
-use nudgebar_engine::ModelIdentity;
-use nudgebar_music::attributes::Readout;
-use nudgebar_music::{Note, Phrase, TimeSignature, MAX_MEASURES};
 use parking_lot::Mutex;
-use serde::{Deserialize, Deserializer, Serialize};
-use serde_json::Value;
 use std::sync::atomic::{AtomicU64, Ordering};
-use std::sync::Arc;
-
-/// The session format this build writes. Version history:
-/// - 1: prompt, kept takes, model path.
-pub const STATE_VERSION: u64 = 1;
-
-/// Most kept takes a session holds; older ones must be removed first. Caps
-/// what a hostile blob can make the plugin hold.
-pub const MAX_KEPT: usize = 256;
-
-#[derive(Debug, Clone, PartialEq, Serialize)]
-pub struct SessionState {
-    pub version: u64,
-    /// The prompt the takes are made from.
-    pub prompt: Option<SavedPrompt>,
-    /// Takes the composer chose to keep, oldest first.
-    pub kept: Vec<KeptTake>,
-    /// The model package folder in use; `None` for the built-in demo model.
-    pub model_path: Option<String>,
-    /// What the last load had to drop or repair, as sentences. Not saved.
-    #[serde(skip)]
-    pub load_report: Vec<String>,
-}
-
-impl Default for SessionState {
-    fn default() -> Self {
-        Self {
-            version: STATE_VERSION,
-            prompt: None,
-            kept: Vec::new(),
-            model_path: None,
-            load_report: Vec::new(),
-        }
-    }
-}
-
-/// A captured prompt.
-#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
-pub struct SavedPrompt {
-    pub phrase: Phrase,
-    /// Host tempo when it was captured (BPM), for exported files.
-    pub tempo: f64,
-}
-
-/// The slider settings a take was made with: enough to make it again.
-#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
-pub struct TakeSettings {
-    /// Slider value per model axis, by attribute key ("note_density", …).
-    pub offsets: Vec<(String, f32)>,
-    pub takes: usize,
-    pub spread: f32,
-    pub seed: u64,
-    /// Which take of the request (0-based).
-    pub index: usize,
-}
-
-/// A take the composer kept.
-#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
-pub struct KeptTake {
-    /// Shown in the editor and used for the exported file name.
-    pub name: String,
-    pub phrase: Phrase,
-    pub settings: TakeSettings,
-    /// The engine's noise stream for this take (with the settings and
-    /// prompt it reproduces the take).
-    pub stream: u64,
-    pub model: ModelIdentity,
-    /// Measured attributes of the take…
-    pub attributes: Readout,
-    /// …and their change from the prompt.
-    pub change: Readout,
-    /// Tempo of the prompt it came from (BPM).
-    pub tempo: f64,
-}
-
-impl SessionState {
-    /// Reads a session from JSON text, keeping what is readable. Never fails.
-    pub fn load_lenient(text: &str) -> SessionState {
-        match serde_json::from_str::<Value>(text) {
-            Ok(value) => SessionState::from_value(value),
-            Err(e) => SessionState {
-                load_report: vec![format!(
-                    "The saved session could not be read at all ({e}); starting with an empty one."
-                )],
-                ..SessionState::default()
-            },
-        }
-    }
-
-    /// Reads a session from parsed JSON, part by part.
-    pub fn from_value(value: Value) -> SessionState {
-        let mut report = Vec::new();
-        let Value::Object(map) = value else {
-            return SessionState {
-                load_report: vec![
-                    "The saved session was not a Nudgebar session; starting with an empty one."
-                        .to_string(),
-                ],
-                ..SessionState::default()
-            };
-        };
-        match map.get("version").and_then(Value::as_u64) {
-            Some(STATE_VERSION) => {}
-            Some(v) if v > STATE_VERSION => report.push(format!(
-                "This session was saved by a newer Nudgebar (session version {v}); what this version understands was loaded, and saving will write version {STATE_VERSION}."
-            )),
-            other => report.push(format!(
-                "The saved session has an unknown version ({}); what could be read was loaded.",
-                other.map(|v| v.to_string()).unwrap_or_else(|| "none".into())
-            )),
-        }
-
-        let prompt = match map.get("prompt") {
-            None | Some(Value::Null) => None,
-            Some(v) => {
-                match SavedPrompt::deserialize(v) {
-                    Ok(p) => match clean_phrase(&p.phrase) {
-                        Some((phrase, dropped)) => {
-                            if dropped > 0 {
-                                report.push(format!("{dropped} unreadable note(s) were dropped from the saved prompt."));
-                            }
-                            Some(SavedPrompt {
-                                phrase,
-                                tempo: clean_tempo(p.tempo),
-                            })
-                        }
-                        None => {
-                            report.push("The saved prompt had an impossible length or time signature and was dropped; capture a new one.".into());
-                            None
-                        }
-                    },
-                    Err(e) => {
-                        report.push(format!("The saved prompt could not be read ({e}) and was dropped; capture a new one."));
-                        None
-                    }
-                }
-            }
-        };
-
-        let mut kept = Vec::new();
-        match map.get("kept") {
-            None | Some(Value::Null) => {}
-            Some(Value::Array(items)) => {
-                for (i, item) in items.iter().enumerate() {
-                    if kept.len() == MAX_KEPT {
-                        report.push(format!("Only the first {MAX_KEPT} kept takes were loaded; {} more were dropped.", items.len() - MAX_KEPT));
-                        break;
-                    }
-                    match KeptTake::deserialize(item) {
-                        Ok(t) => match clean_phrase(&t.phrase) {
-                            Some((phrase, dropped)) => {
-                                if dropped > 0 {
-                                    report.push(format!("Kept take {} (\"{}\"): {dropped} unreadable note(s) dropped.", i + 1, t.name));
-                                }
-                                let (settings, repaired) = clean_settings(t.settings.clone());
-                                if repaired {
-                                    report.push(format!("Kept take {} (\"{}\"): slider settings beyond range were reset.", i + 1, t.name));
-                                }
-                                kept.push(KeptTake { phrase, tempo: clean_tempo(t.tempo), settings, ..t });
-                            }
-                            None => report.push(format!("Kept take {} (\"{}\") had an impossible length or time signature and was dropped.", i + 1, t.name)),
-                        },
-                        Err(e) => report.push(format!("Kept take {} could not be read ({e}) and was dropped.", i + 1)),
-                    }
-                }
-            }
-            Some(_) => {
-                report.push("The list of kept takes could not be read and was dropped.".into())
-            }
-        }
-
-        let model_path = match map.get("model_path") {
-            None | Some(Value::Null) => None,
-            Some(Value::String(s)) if !s.is_empty() && s.len() <= 4096 => Some(s.clone()),
-            Some(_) => {
-                report.push(
-                    "The saved model folder could not be read; the built-in demo model is used."
-                        .into(),
-                );
-                None
-            }
-        };
-
-        SessionState {
-            version: STATE_VERSION,
-            prompt,
-            kept,
-            model_path,
-            load_report: report,
-        }
-    }
-}
-
-impl<'de> Deserialize<'de> for SessionState {
-    fn deserialize<D: Deserializer<'de>>(deserializer: D) -> Result<Self, D::Error> {
-        // Through a JSON value so a damaged part never fails the whole.
-        let value = Value::deserialize(deserializer)?;
-        Ok(SessionState::from_value(value))
-    }
-}
-
-/// Checks a phrase read from a blob and rebuilds it from its valid notes.
-/// `None` when the phrase itself (length, metre) is impossible.
-fn clean_phrase(p: &Phrase) -> Option<(Phrase, usize)> {
-    let ts = TimeSignature::new(p.time_signature.numerator, p.time_signature.denominator).ok()?;
-    if p.measures == 0 || p.measures > MAX_MEASURES {
-        return None;
-    }
-    let good = |n: &&Note| {
-        n.pitch <= 127
-            && (1..=127).contains(&n.velocity)
-            && n.onset.is_finite()
-            && n.duration.is_finite()
-            && n.onset >= 0.0
-            && n.duration > 0.0
-    };
-    let notes: Vec<Note> = p.notes.iter().filter(good).copied().collect();
-    let mut dropped = p.notes.len() - notes.len();
-    let phrase = Phrase::new(ts, p.measures, notes);
-    dropped += p.notes.len() - dropped - phrase.notes.len();
-    Some((phrase, dropped))
-}
-
-/// JSON numbers beyond f32's range arrive as infinity, which saves as
-/// `null` and would lose the whole take on the next load; such settings are
-/// reset (a slider value dropped, the spread set to 0). Returns whether any was.
-fn clean_settings(mut s: TakeSettings) -> (TakeSettings, bool) {
-    let before = s.offsets.len();
-    s.offsets.retain(|(_, v)| v.is_finite());
-    let mut repaired = s.offsets.len() != before;
-    if !s.spread.is_finite() {
-        s.spread = 0.0;
-        repaired = true;
-    }
-    (s, repaired)
-}
-
-fn clean_tempo(t: f64) -> f64 {
-    if t.is_finite() && (1.0..=1000.0).contains(&t) {
-        t
-    } else {
-        crate::clock::DEFAULT_TEMPO
-    }
-}
 
 /// The session, shared by the host's state calls, the worker and the editor.
 ///
@@ -308,7 +57,7 @@ impl SessionCell {
     }
 }
 
-impl<'a> PersistentField<'a, SessionState> for Arc<SessionCell> {
+impl<'a> PersistentField<'a, SessionState> for SessionCell {
     fn set(&self, new_value: SessionState) {
         self.load(new_value);
     }
@@ -325,95 +74,19 @@ impl<'a> PersistentField<'a, SessionState> for Arc<SessionCell> {
 mod tests {
     use super::*;
 
-    fn take(name: &str) -> KeptTake {
-        KeptTake {
-            name: name.into(),
-            phrase: Phrase::new(
-                TimeSignature::FOUR_FOUR,
-                1,
-                vec![Note::new(60, 0.0, 1.0, 90), Note::new(67, 2.5, 0.5, 70)],
-            ),
-            settings: TakeSettings {
-                offsets: vec![("note_density".into(), 0.25)],
-                takes: 4,
-                spread: 0.5,
-                seed: 9,
-                index: 2,
-            },
-            stream: 42,
-            model: ModelIdentity {
-                name: "demo".into(),
-                fingerprint: "00ff".into(),
-            },
-            attributes: Readout::of(&Phrase::empty(TimeSignature::FOUR_FOUR, 1)),
-            change: Readout::of(&Phrase::empty(TimeSignature::FOUR_FOUR, 1)),
-            tempo: 96.0,
-        }
-    }
-
-    fn session() -> SessionState {
-        SessionState {
-            prompt: Some(SavedPrompt {
-                phrase: take("p").phrase,
-                tempo: 96.0,
-            }),
-            kept: vec![take("Lamp climb"), take("Net mender")],
-            model_path: Some("/models/wren".into()),
-            ..SessionState::default()
-        }
-    }
-
-    #[test]
-    fn save_load_save_is_identical() {
-        let first = serde_json::to_string(&session()).unwrap();
-        let loaded: SessionState = serde_json::from_str(&first).unwrap();
-        assert!(loaded.load_report.is_empty(), "{:?}", loaded.load_report);
-        assert_eq!(loaded, session());
-        assert_eq!(serde_json::to_string(&loaded).unwrap(), first);
-    }
-
-    #[test]
-    fn a_damaged_take_is_dropped_and_the_rest_kept() {
-        let mut v = serde_json::to_value(session()).unwrap();
-        v["kept"][0]["phrase"] = Value::String("garbage".into());
-        v["kept"][1]["phrase"]["notes"][0]["pitch"] = 200.into();
-        let loaded = SessionState::from_value(v);
-        assert_eq!(loaded.kept.len(), 1);
-        assert_eq!(loaded.kept[0].name, "Net mender");
-        assert_eq!(
-            loaded.kept[0].phrase.notes.len(),
-            1,
-            "the out-of-range note is dropped"
-        );
-        assert!(loaded.prompt.is_some());
-        assert_eq!(loaded.load_report.len(), 2, "{:?}", loaded.load_report);
-        assert!(loaded.load_report[0].contains("Kept take 1"));
-    }
-
-    #[test]
-    fn impossible_phrases_and_foreign_values_never_panic() {
-        let mut v = serde_json::to_value(session()).unwrap();
-        v["prompt"]["phrase"]["measures"] = 0.into();
-        v["kept"] = 5.into();
-        v["model_path"] = Value::Bool(true);
-        v["version"] = 7.into();
-        let loaded = SessionState::from_value(v);
-        assert!(loaded.prompt.is_none() && loaded.kept.is_empty() && loaded.model_path.is_none());
-        assert_eq!(loaded.load_report.len(), 4, "{:?}", loaded.load_report);
-        assert!(loaded.load_report[0].contains("newer Nudgebar"));
-        for text in ["", "null", "[]", "{\"kept\":[{}]}", "{\"version\":1,\"prompt\":{\"phrase\":{\"time_signature\":{\"numerator\":4,\"denominator\":3},\"measures\":1,\"notes\":[]},\"tempo\":1e308}}"] {
-            let s = SessionState::load_lenient(text);
-            assert!(s.prompt.is_none() && s.kept.is_empty());
-            assert!(!s.load_report.is_empty(), "{text:?} should be reported");
-        }
-    }
-
     #[test]
     fn the_cell_counts_loads_for_the_worker() {
-        let cell = Arc::new(SessionCell::default());
+        let cell = SessionCell::default();
         assert_eq!(cell.loads(), 0);
-        PersistentField::set(&cell, session());
+        let session = SessionState::load_lenient(
+            r#"{"version":1,"prompt":null,"kept":[],"model_path":"/models/wren"}"#,
+        );
+        assert!(session.load_report.is_empty(), "{:?}", session.load_report);
+        PersistentField::set(&cell, session);
         assert_eq!(cell.loads(), 1);
-        assert_eq!(PersistentField::map(&cell, |s| s.kept.len()), 2);
+        assert_eq!(
+            PersistentField::map(&cell, |s| s.model_path.clone()).as_deref(),
+            Some("/models/wren")
+        );
     }
 }
