@@ -15,7 +15,7 @@ use anyhow::{bail, Context, Result};
 use std::process::Command;
 
 /// Every fuzz target, as named in fuzz/Cargo.toml.
-const TARGETS: &[&str] = &["manifest", "midi_file", "saved_take"];
+const TARGETS: &[&str] = &["manifest", "midi_file", "session"];
 const DEFAULT_SECONDS: u64 = 60;
 
 pub fn run(args: &[String]) -> Result<()> {
