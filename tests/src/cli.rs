@@ -13,7 +13,11 @@ pub fn nudge() -> PathBuf {
             let root = crate::workspace_root();
             let cargo = std::env::var_os("CARGO").unwrap_or_else(|| "cargo".into());
             let status = Command::new(cargo)
-                .args(["build", "--quiet", "-p", "nudgebar-cli", "--bin", "nudge"])
+                // `--workspace --tests`: the packages and test targets of
+                // `cargo test --workspace`, so the dependency features (and
+                // so the compiled inference engine) are the test build's;
+                // `-p nudgebar-cli` alone would compile tract once more.
+                .args(["build", "--quiet", "--workspace", "--tests", "--bin", "nudge"])
                 .current_dir(&root)
                 .status()
                 .expect("run cargo build");

@@ -9,8 +9,9 @@ use std::sync::OnceLock;
 ///
 /// `$NUDGEBAR_CLAP` names a ready-made file to load instead (for testing an
 /// installed or release build). Otherwise this runs
-/// `cargo xtask bundle <crate_name>` — the debug bundle the README documents —
-/// which rebuilds only what changed, and returns
+/// `cargo xtask bundle <crate_name>` — the debug bundle the README documents,
+/// built alongside the test build (see `build`) — which rebuilds only what
+/// changed, and returns
 /// `target/bundled/<bundle_name>.clap`.
 pub fn bundled_clap(crate_name: &str, bundle_name: &str) -> Result<PathBuf, HarnessError> {
     if let Some(path) = std::env::var_os("NUDGEBAR_CLAP") {
@@ -26,9 +27,15 @@ pub fn bundled_clap(crate_name: &str, bundle_name: &str) -> Result<PathBuf, Harn
 fn build(crate_name: &str, bundle_name: &str) -> Result<PathBuf, String> {
     let root = crate::workspace_root();
     let cargo = std::env::var_os("CARGO").unwrap_or_else(|| "cargo".into());
-    let how = format!("cargo xtask bundle {crate_name}");
+    // `--workspace --tests --lib`: the same packages and test targets as
+    // `cargo test --workspace`, so cargo resolves the same dependency
+    // features and reuses that build; `cargo build -p <crate>` alone
+    // resolves fewer features and compiles the inference engine (tract)
+    // again, about four minutes on two cores. `--lib` makes cargo write the
+    // plugin's shared library, which the bundler copies.
+    let how = format!("cargo xtask bundle {crate_name} --workspace --tests --lib");
     let out = Command::new(cargo)
-        .args(["xtask", "bundle", crate_name])
+        .args(["xtask", "bundle", crate_name, "--workspace", "--tests", "--lib"])
         .current_dir(&root)
         .output()
         .map_err(|e| format!("could not run `{how}` to build the plugin bundle: {e}"))?;
