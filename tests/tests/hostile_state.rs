@@ -10,7 +10,7 @@
 //! most MAX_KEPT takes); and what it loaded saves and reloads identically,
 //! with nothing more dropped.
 
-use nudgebar::state::{KeptTake, SavedPrompt, SessionState, TakeSettings, MAX_KEPT};
+use nudgebar::state::{KeptTake, SavedPrompt, SessionState, Shaping, TakeSettings, MAX_KEPT};
 use nudgebar_engine::ModelIdentity;
 use nudgebar_music::attributes::Readout;
 use nudgebar_music::{Note, Phrase, TimeSignature, MAX_MEASURES};
@@ -34,7 +34,13 @@ fn take(name: &str, ts: TimeSignature, notes: Vec<Note>) -> KeptTake {
             spread: 0.5,
             seed: 17,
             index: 1,
+            shaping: Shaping {
+                key: Some("G Mixolydian".into()),
+                holds: vec![("pitch_range".into(), 2.0)],
+                ..Shaping::default()
+            },
         },
+        latent: vec![0.75, -1.5, 0.125, 2.0],
         stream: 3,
         model: ModelIdentity {
             name: "Wrenmouth ferry calls".into(),

@@ -72,6 +72,10 @@ pub struct TakeSettings {
     pub seed: u64,
     /// Which take of the request (0-based).
     pub index: usize,
+    /// Key, holds, aim or blend the take's set was shaped with (absent in
+    /// sessions from before shaping, and not written for plain takes).
+    #[serde(default, skip_serializing_if = "Shaping::is_plain")]
+    pub shaping: Shaping,
 }
 
 /// A take the composer kept.
@@ -91,6 +95,66 @@ pub struct KeptTake {
     pub change: Readout,
     /// Tempo of the prompt it came from (BPM).
     pub tempo: f64,
+    /// The latent code(s) it was decoded from, so a blend can head for it
+    /// (absent in older sessions: the blend then encodes its notes). f64,
+    /// though the model computes in f32: a saved value too large for f32
+    /// would load as infinity, save as `null` and lose the whole take.
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub latent: Vec<f64>,
+}
+
+/// How the set a kept take came from was shaped beyond the sliders: key,
+/// holds, aim, blend, and what the plugin said about it. Empty for a take
+/// made by the sliders alone, and then not written at all, so sessions
+/// without shaping save as before.
+#[derive(Debug, Clone, Default, PartialEq, Serialize, Deserialize)]
+pub struct Shaping {
+    /// The key the takes were kept in, e.g. "D Dorian".
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub key: Option<String>,
+    /// Held attributes (by key, e.g. "pitch_range") and their tolerances.
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub holds: Vec<(String, f64)>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub aim: Option<AimRecord>,
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub blend: Option<BlendRecord>,
+    /// The sentences the editor showed about the set.
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub report: Vec<String>,
+}
+
+impl Shaping {
+    /// True for a take made by the sliders alone.
+    pub fn is_plain(&self) -> bool {
+        *self == Shaping::default()
+    }
+}
+
+/// An aim: the target and how the search ended.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct AimRecord {
+    /// Attribute key, e.g. "note_density".
+    pub attribute: String,
+    pub value: f64,
+    pub tolerance: f64,
+    /// "reached", "out_of_reach", "gap" or "budget_spent".
+    pub outcome: String,
+    /// What the aimed take measured.
+    pub reached: Option<f64>,
+    pub decodes: usize,
+}
+
+/// A blend: toward which kept take, how far, along which path.
+#[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
+pub struct BlendRecord {
+    /// The kept take's name when the blend was made.
+    pub toward: String,
+    /// 0 = the prompt, 1 = the kept take (f64 so no saved value can
+    /// overflow into infinity on loading).
+    pub amount: f64,
+    /// "linear" or "spherical".
+    pub path: String,
 }
 
 impl SessionState {
@@ -283,7 +347,9 @@ mod tests {
                 spread: 0.5,
                 seed: 9,
                 index: 2,
+                shaping: Shaping::default(),
             },
+            latent: Vec::new(),
             stream: 42,
             model: ModelIdentity {
                 name: "demo".into(),
@@ -350,5 +416,49 @@ mod tests {
             assert!(s.prompt.is_none() && s.kept.is_empty());
             assert!(!s.load_report.is_empty(), "{text:?} should be reported");
         }
+    }
+
+    #[test]
+    fn shaped_takes_round_trip_and_older_takes_load_without_shaping() {
+        let mut shaped = take("Aimed climb");
+        shaped.latent = vec![0.5, -1.25, 3.0e-8, 2.0];
+        shaped.settings.shaping = Shaping {
+            key: Some("D Dorian".into()),
+            holds: vec![("pitch_range".into(), 2.0)],
+            aim: Some(AimRecord {
+                attribute: "note_density".into(),
+                value: 7.0,
+                tolerance: 0.5,
+                outcome: "reached".into(),
+                reached: Some(7.0),
+                decodes: 5,
+            }),
+            blend: Some(BlendRecord {
+                toward: "Take 1 · seed 1 (#1)".into(),
+                amount: 0.4,
+                path: "spherical".into(),
+            }),
+            report: vec!["Reached note density 7.0 for a target of 7.0.".into()],
+        };
+        let state = SessionState {
+            kept: vec![take("Plain"), shaped],
+            ..SessionState::default()
+        };
+        let text = serde_json::to_string(&state).unwrap();
+        let loaded: SessionState = serde_json::from_str(&text).unwrap();
+        assert!(loaded.load_report.is_empty(), "{:?}", loaded.load_report);
+        assert_eq!(loaded, state);
+        assert_eq!(serde_json::to_string(&loaded).unwrap(), text);
+        // A plain take writes neither field, so it saves as before shaping.
+        let plain = serde_json::to_value(&state.kept[0]).unwrap();
+        assert!(plain.get("latent").is_none() && plain["settings"].get("shaping").is_none());
+        // A session from before shaping (no such fields) loads them empty.
+        let old = serde_json::to_value(session()).unwrap();
+        let loaded = SessionState::from_value(old);
+        assert!(loaded.load_report.is_empty());
+        assert!(loaded
+            .kept
+            .iter()
+            .all(|k| k.latent.is_empty() && k.settings.shaping.is_plain()));
     }
 }

@@ -28,6 +28,8 @@ pub mod export;
 pub mod link;
 pub mod params;
 pub mod presets;
+pub mod shape_params;
+pub mod shaping;
 pub mod state;
 pub mod status;
 pub mod voices;
@@ -139,10 +141,12 @@ impl Nudgebar {
     pub fn with_builtin_model(builtin: BuiltinModel) -> Self {
         let params = Arc::new(NudgebarParams::default());
         let (link, worker_link, commands) = link::channels();
+        let shared = Arc::new(Shared::default());
+        status::register(&shared);
         Self {
             triggers: Triggers::read(&params),
             params,
-            shared: Arc::new(Shared::default()),
+            shared,
             commands,
             link,
             worker_link: Some(worker_link),

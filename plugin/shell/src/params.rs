@@ -6,8 +6,14 @@
 //! rename one. The CLAP/VST3 hosts show the `name`s; the ids are listed in
 //! [`ids`] for the test harness and anyone mapping controllers.
 
+use crate::shape_params::{
+    aim_value_param, blend_amount_param, blend_toward_param, hold_param, leeway_param, AimAt,
+    BlendPath, ScaleChoice, Tonic,
+};
+use crate::shaping::BlendSetting;
 use crate::state::SessionCell;
 use nice_plug::prelude::*;
+use nudgebar_engine::steer::KeyScale;
 use nudgebar_music::attributes::Attribute;
 use std::sync::Arc;
 
@@ -42,6 +48,23 @@ pub mod ids {
     pub const GRAB: &str = "grab";
     pub const KEEP: &str = "keep";
     pub const BYPASS: &str = "bypass";
+    // Shaping beyond the sliders (see `shape_params.rs`).
+    pub const KEY: &str = "key";
+    pub const SCALE: &str = "scale";
+    pub const HOLDS: [&str; super::AXIS_SLOTS] =
+        ["hold1", "hold2", "hold3", "hold4", "hold5", "hold6"];
+    pub const HOLD_LEEWAY: &str = "hold_leeway";
+    pub const AIM: &str = "aim";
+    pub const AIM_NOTES: &str = "aim_notes";
+    pub const AIM_RANGE: &str = "aim_range";
+    pub const AIM_RHYTHM: &str = "aim_rhythm";
+    pub const AIM_CONTOUR: &str = "aim_contour";
+    pub const AIM_PITCH: &str = "aim_pitch";
+    /// The aim value lanes, in `Attribute::ALL` order.
+    pub const AIM_VALUES: [&str; 5] = [AIM_NOTES, AIM_RANGE, AIM_RHYTHM, AIM_CONTOUR, AIM_PITCH];
+    pub const BLEND_TOWARD: &str = "blend_toward";
+    pub const BLEND: &str = "blend";
+    pub const BLEND_PATH: &str = "blend_path";
 }
 
 /// What the track hears: the player's input, the selected take, or both.
@@ -140,6 +163,56 @@ pub struct NudgebarParams {
     #[id = "bypass"]
     pub bypass: BoolParam,
 
+    // ----- shaping beyond the sliders (`shape_params.rs` explains the
+    // design); read by the worker and the editor, never by `process()`. -----
+    /// The key's tonic, or off (takes may use any pitch).
+    #[id = "key"]
+    pub key: EnumParam<Tonic>,
+    /// The key's scale (used once a tonic is chosen).
+    #[id = "scale"]
+    pub scale: EnumParam<ScaleChoice>,
+
+    /// Hold the attribute of axis slot 1–6 near the prompt's value.
+    #[id = "hold1"]
+    pub hold1: BoolParam,
+    #[id = "hold2"]
+    pub hold2: BoolParam,
+    #[id = "hold3"]
+    pub hold3: BoolParam,
+    #[id = "hold4"]
+    pub hold4: BoolParam,
+    #[id = "hold5"]
+    pub hold5: BoolParam,
+    #[id = "hold6"]
+    pub hold6: BoolParam,
+    /// Factor on every hold's tolerance.
+    #[id = "hold_leeway"]
+    pub hold_leeway: FloatParam,
+
+    /// Which attribute target mode aims at, or off.
+    #[id = "aim"]
+    pub aim: EnumParam<AimAt>,
+    /// The aim's value, one lane per attribute in its own unit.
+    #[id = "aim_notes"]
+    pub aim_notes: FloatParam,
+    #[id = "aim_range"]
+    pub aim_range: FloatParam,
+    #[id = "aim_rhythm"]
+    pub aim_rhythm: FloatParam,
+    #[id = "aim_contour"]
+    pub aim_contour: FloatParam,
+    #[id = "aim_pitch"]
+    pub aim_pitch: FloatParam,
+
+    /// Kept take (1-based) to blend toward; 0 = off.
+    #[id = "blend_toward"]
+    pub blend_toward: IntParam,
+    /// How far from the prompt toward it, 0–1.
+    #[id = "blend"]
+    pub blend: FloatParam,
+    #[id = "blend_path"]
+    pub blend_path: EnumParam<BlendPath>,
+
     /// Kept takes, the current prompt and the chosen model, saved with the
     /// project. The audio thread never touches it.
     #[persist = "session"]
@@ -229,6 +302,24 @@ impl Default for NudgebarParams {
                 .with_value_to_string(formatters::v2s_bool_bypass())
                 .with_string_to_value(formatters::s2v_bool_bypass())
                 .make_bypass(),
+            key: EnumParam::new("Key", Tonic::Off),
+            scale: EnumParam::new("Scale", ScaleChoice::Major),
+            hold1: hold_param(0),
+            hold2: hold_param(1),
+            hold3: hold_param(2),
+            hold4: hold_param(3),
+            hold5: hold_param(4),
+            hold6: hold_param(5),
+            hold_leeway: leeway_param(),
+            aim: EnumParam::new("Aim at", AimAt::Off),
+            aim_notes: aim_value_param(Attribute::NoteDensity),
+            aim_range: aim_value_param(Attribute::PitchRange),
+            aim_rhythm: aim_value_param(Attribute::RhythmicComplexity),
+            aim_contour: aim_value_param(Attribute::Contour),
+            aim_pitch: aim_value_param(Attribute::MeanPitch),
+            blend_toward: blend_toward_param(),
+            blend: blend_amount_param(),
+            blend_path: EnumParam::new("Blend path", BlendPath::Linear),
             session: SessionCell::default(),
         }
     }
@@ -242,6 +333,16 @@ pub struct Steering {
     pub takes: usize,
     pub spread: f32,
     pub seed: u64,
+    /// The key takes are kept in; `None`: any pitch.
+    pub key: Option<KeyScale>,
+    /// Hold per axis slot.
+    pub holds: [bool; AXIS_SLOTS],
+    /// Factor on every hold's tolerance.
+    pub leeway: f32,
+    /// Attribute and value to aim at.
+    pub aim: Option<(Attribute, f64)>,
+    /// A blend toward a kept take.
+    pub blend: Option<BlendSetting>,
 }
 
 impl NudgebarParams {
@@ -252,6 +353,46 @@ impl NudgebarParams {
             takes: self.takes.value().clamp(1, MAX_TAKES as i32) as usize,
             spread: self.spread.value(),
             seed: self.seed.value().max(0) as u64,
+            key: self
+                .key
+                .value()
+                .pitch_class()
+                .map(|tonic| KeyScale::new(tonic, self.scale.value().scale())),
+            holds: self.hold_params().map(|p| p.value()),
+            leeway: self.hold_leeway.value(),
+            aim: self
+                .aim
+                .value()
+                .attribute()
+                .map(|a| (a, self.aim_lane(a).value() as f64)),
+            blend: (self.blend_toward.value() > 0).then(|| BlendSetting {
+                toward: (self.blend_toward.value() - 1) as usize,
+                amount: self.blend.value(),
+                path: self.blend_path.value().interpolation(),
+            }),
+        }
+    }
+
+    /// The six hold toggles in slot order.
+    pub fn hold_params(&self) -> [&BoolParam; AXIS_SLOTS] {
+        [
+            &self.hold1,
+            &self.hold2,
+            &self.hold3,
+            &self.hold4,
+            &self.hold5,
+            &self.hold6,
+        ]
+    }
+
+    /// The aim value lane of `attribute`.
+    pub fn aim_lane(&self, attribute: Attribute) -> &FloatParam {
+        match attribute {
+            Attribute::NoteDensity => &self.aim_notes,
+            Attribute::PitchRange => &self.aim_range,
+            Attribute::RhythmicComplexity => &self.aim_rhythm,
+            Attribute::Contour => &self.aim_contour,
+            Attribute::MeanPitch => &self.aim_pitch,
         }
     }
 
@@ -454,7 +595,18 @@ mod tests {
             ids::GRAB,
             ids::KEEP,
             ids::BYPASS,
-        ] {
+            ids::KEY,
+            ids::SCALE,
+            ids::HOLD_LEEWAY,
+            ids::AIM,
+            ids::BLEND_TOWARD,
+            ids::BLEND,
+            ids::BLEND_PATH,
+        ]
+        .into_iter()
+        .chain(ids::HOLDS)
+        .chain(ids::AIM_VALUES)
+        {
             assert!(found.iter().any(|f| f == id), "missing {id} in {found:?}");
         }
         for id in ids::AXES {

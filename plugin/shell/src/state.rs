@@ -8,7 +8,8 @@
 //! so the mutex here is never taken in `process()`.
 
 pub use nudgebar_contract::session::{
-    KeptTake, SavedPrompt, SessionState, TakeSettings, MAX_KEPT, STATE_VERSION,
+    AimRecord, BlendRecord, KeptTake, SavedPrompt, SessionState, Shaping, TakeSettings, MAX_KEPT,
+    STATE_VERSION,
 };
 use nice_plug::params::persist::PersistentField;
 use parking_lot::Mutex;

@@ -9,13 +9,15 @@
 //!   capture progress, what is playing, events the host could not take.
 
 use crate::capture::CaptureStatus;
+use crate::params::Steering;
+use crate::shaping::SetReport;
 use nudgebar_engine::{HoleReport, ModelIdentity};
 use nudgebar_music::attributes::{Attribute, Readout};
 use nudgebar_music::Phrase;
 use parking_lot::Mutex;
 use std::path::PathBuf;
 use std::sync::atomic::{AtomicBool, AtomicU32, AtomicU64, Ordering};
-use std::sync::Arc;
+use std::sync::{Arc, Weak};
 
 /// One control axis of the loaded model, as the editor labels it.
 #[derive(Debug, Clone, PartialEq)]
@@ -62,6 +64,10 @@ pub struct WorkerView {
     /// Generation of the take set these takes belong to (matches the audio side).
     pub generation: u64,
     pub takes: Vec<TakeView>,
+    /// The settings these takes were made with.
+    pub steering: Option<Steering>,
+    /// How the set was shaped beyond the sliders (key, holds, aim, blend).
+    pub report: SetReport,
     pub holes: HoleReport,
     /// Why the last request failed (inference error or a caught panic).
     pub request_error: Option<String>,
@@ -146,4 +152,22 @@ impl Shared {
         // The old view is freed here, after the lock is released.
         drop(old);
     }
+}
+
+/// Instances alive in this process, oldest first, so an in-process host —
+/// the CLAP test harness — can read what an instance's editor would show.
+/// Touched only when an instance is made (main thread) and by such readers,
+/// never by `process()`.
+static INSTANCES: Mutex<Vec<Weak<Shared>>> = Mutex::new(Vec::new());
+
+/// Lists a new instance's shared status (called when the plugin is made).
+pub(crate) fn register(shared: &Arc<Shared>) {
+    let mut all = INSTANCES.lock();
+    all.retain(|w| w.strong_count() > 0);
+    all.push(Arc::downgrade(shared));
+}
+
+/// The shared status of every live instance in this process, oldest first.
+pub fn instances() -> Vec<Arc<Shared>> {
+    INSTANCES.lock().iter().filter_map(Weak::upgrade).collect()
 }

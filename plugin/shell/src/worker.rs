@@ -19,10 +19,11 @@ use crate::buffers::{PromptCapture, TakeSet};
 use crate::export;
 use crate::link::{Command, WorkerLink};
 use crate::params::{AxisBinding, NudgebarParams, Steering};
+use crate::shaping::{self, BlendTarget, SetReport};
 use crate::state::{KeptTake, SavedPrompt, TakeSettings, MAX_KEPT};
 use crate::status::{AxisView, ModelView, Shared, TakeView};
 use crossbeam_channel::select;
-use nudgebar_engine::{Engine, ModelError, ModelPackage, Variation, VariationRequest};
+use nudgebar_engine::{Engine, ModelError, ModelPackage, Variation};
 use nudgebar_music::Phrase;
 use std::collections::VecDeque;
 use std::panic::{catch_unwind, AssertUnwindSafe};
@@ -88,6 +89,19 @@ struct Made {
     steering: Steering,
     offsets: Vec<(String, f32)>,
     tempo: f64,
+    /// How it was shaped beyond the sliders.
+    report: SetReport,
+}
+
+/// Everything a take set depends on: when any of it changes, new takes.
+#[derive(Debug, Clone, Copy, PartialEq)]
+struct RequestKey {
+    prompt: u64,
+    model: u64,
+    steering: Steering,
+    /// Fingerprint of the kept take a blend heads for (a blend is remade
+    /// when that take is removed or reloaded).
+    blend_target: Option<u64>,
 }
 
 struct Worker {
@@ -107,7 +121,7 @@ struct Worker {
     /// Host loads of the session already taken in.
     seen_loads: u64,
     /// What the latest takes were made from.
-    last_request: Option<(u64, u64, Steering)>,
+    last_request: Option<RequestKey>,
     generation: u64,
     recent: VecDeque<Made>,
     pool: Vec<Box<TakeSet>>,
@@ -261,12 +275,53 @@ impl Worker {
             && self.last_request != Some(self.request_key())
     }
 
-    fn request_key(&self) -> (u64, u64, Steering) {
-        (
-            self.prompt_version,
-            self.model_version,
-            self.params.steering(),
-        )
+    /// The request the current settings ask for: what the takes depend on.
+    fn request_key(&self) -> RequestKey {
+        let steering = self.params.steering();
+        RequestKey {
+            prompt: self.prompt_version,
+            model: self.model_version,
+            steering,
+            blend_target: steering.blend.map(|b| self.kept_fingerprint(b.toward)),
+        }
+    }
+
+    /// A fingerprint of kept take `index` (0 when there is none), so a blend
+    /// is remade when the take it heads for changes (removed, reloaded).
+    fn kept_fingerprint(&self, index: usize) -> u64 {
+        use std::hash::{Hash, Hasher};
+        self.params.session.read(|s| {
+            let Some(k) = s.kept.get(index) else {
+                return 0;
+            };
+            let mut h = std::collections::hash_map::DefaultHasher::new();
+            k.name.hash(&mut h);
+            for v in &k.latent {
+                v.to_bits().hash(&mut h);
+            }
+            for n in &k.phrase.notes {
+                (n.pitch, n.onset.to_bits(), n.duration.to_bits()).hash(&mut h);
+            }
+            h.finish() | 1
+        })
+    }
+
+    /// The kept take a blend heads for, with its latent code when it was
+    /// made by the model loaded now.
+    fn blend_target(&self, index: usize) -> Option<BlendTarget> {
+        let fingerprint = self.engine.as_ref()?.identity().fingerprint.clone();
+        self.params.session.read(|s| {
+            s.kept.get(index).map(|k| BlendTarget {
+                index,
+                name: k.name.clone(),
+                latent: if k.model.fingerprint == fingerprint {
+                    k.latent.iter().map(|v| *v as f32).collect()
+                } else {
+                    Vec::new()
+                },
+                phrase: k.phrase.clone(),
+            })
+        })
     }
 
     /// Makes takes if the prompt, model or sliders changed since last time.
@@ -278,7 +333,8 @@ impl Worker {
         // Recorded before running: a failing request is not retried in a
         // loop, only when something changes (or on Regenerate).
         self.last_request = Some(key);
-        let steering = key.2;
+        let steering = key.steering;
+        let blend_target = steering.blend.and_then(|b| self.blend_target(b.toward));
         let (Some(engine), Some(prompt)) = (self.engine.as_mut(), self.prompt.as_ref()) else {
             return;
         };
@@ -290,21 +346,15 @@ impl Worker {
             .zip(&offsets)
             .map(|(a, o)| (a.key().to_string(), *o))
             .collect();
-        let request = VariationRequest {
-            offsets,
-            takes: steering.takes,
-            spread: steering.spread,
-            seed: steering.seed,
-            ..Default::default()
-        };
+        let planned = shaping::plan(&steering, &attributes, blend_target);
 
         self.shared.busy.store(true, Ordering::Release);
         let phrase = prompt.phrase.clone();
         let tempo = prompt.tempo;
-        let outcome = catch_unwind(AssertUnwindSafe(|| engine.vary(&phrase, &request)));
+        let outcome = catch_unwind(AssertUnwindSafe(|| shaping::run(engine, &phrase, &planned)));
         self.shared.busy.store(false, Ordering::Release);
         match outcome {
-            Ok(Ok(variation)) => self.deliver(variation, steering, named, tempo),
+            Ok(Ok((variation, report))) => self.deliver(variation, steering, named, tempo, report),
             Ok(Err(e)) => {
                 self.view.request_error = Some(e.to_string());
                 self.publish();
@@ -335,6 +385,7 @@ impl Worker {
         steering: Steering,
         offsets: Vec<(String, f32)>,
         tempo: f64,
+        report: SetReport,
     ) {
         self.generation += 1;
         let mut set = self.pool.pop().unwrap_or_else(TakeSet::boxed);
@@ -364,6 +415,8 @@ impl Worker {
                 change: t.change.clone(),
             })
             .collect();
+        self.view.steering = Some(steering);
+        self.view.report = report.clone();
         self.view.prompt = Some(variation.prompt.clone());
         self.view.prompt_attributes = Some(variation.prompt_attributes.clone());
         self.view.adjustments = variation.adjustments.sentences();
@@ -375,6 +428,7 @@ impl Worker {
             steering,
             offsets,
             tempo,
+            report,
         });
         while self.recent.len() > RECENT {
             self.recent.pop_front();
@@ -481,7 +535,9 @@ impl Worker {
                 spread: made.steering.spread,
                 seed: made.steering.seed,
                 index: take,
+                shaping: made.report.record(),
             },
+            latent: t.latent.iter().map(|v| *v as f64).collect(),
             stream: t.stream,
             model,
             attributes: t.attributes.clone(),

@@ -6,8 +6,10 @@
 
 use crate::link::Command;
 use crate::params::{Listen, NudgebarParams};
+use crate::shape_params::{AimAt, BlendPath, ScaleChoice, Tonic};
 use crossbeam_channel::{Sender, TrySendError};
 use nice_plug::prelude::{Param, ParamSetter};
+use nudgebar_music::attributes::Attribute;
 use std::path::PathBuf;
 
 /// A slider drag, as the host wants to hear it: begin, values, end.
@@ -51,6 +53,26 @@ pub enum Action {
     Takes(i32),
     Spread(f32),
     Seed(i32),
+    /// Shaping beyond the sliders (`shape_params.rs`).
+    Key(Tonic),
+    Scale(ScaleChoice),
+    /// Hold (or release) the attribute of axis slot `slot` (0–5).
+    Hold {
+        slot: usize,
+        on: bool,
+    },
+    Leeway(f32),
+    Aim(AimAt),
+    /// The aim lane of `attribute`, in its unit.
+    AimValue {
+        attribute: Attribute,
+        value: f32,
+    },
+    /// Kept take number (1-based) to blend toward; 0 = off.
+    BlendToward(i32),
+    /// The blend amount, dragged like a slider.
+    BlendAmount(Gesture),
+    BlendPath(BlendPath),
 }
 
 /// Sets a parameter as one complete gesture.
@@ -135,6 +157,47 @@ pub fn apply(
         }
         Action::Seed(n) => {
             set_once(setter, &params.seed, *n);
+            None
+        }
+        Action::Key(t) => {
+            set_once(setter, &params.key, *t);
+            None
+        }
+        Action::Scale(v) => {
+            set_once(setter, &params.scale, *v);
+            None
+        }
+        Action::Hold { slot, on } => {
+            set_once(setter, params.hold_params()[(*slot).min(5)], *on);
+            None
+        }
+        Action::Leeway(v) => {
+            set_once(setter, &params.hold_leeway, v.clamp(0.25, 4.0));
+            None
+        }
+        Action::Aim(a) => {
+            set_once(setter, &params.aim, *a);
+            None
+        }
+        Action::AimValue { attribute, value } => {
+            set_once(setter, params.aim_lane(*attribute), *value);
+            None
+        }
+        Action::BlendToward(n) => {
+            set_once(setter, &params.blend_toward, (*n).max(0));
+            None
+        }
+        Action::BlendAmount(gesture) => {
+            let param = &params.blend;
+            match *gesture {
+                Gesture::Begin => setter.begin_set_parameter(param),
+                Gesture::Set(v) => setter.set_parameter(param, v.clamp(0.0, 1.0)),
+                Gesture::End => setter.end_set_parameter(param),
+            }
+            None
+        }
+        Action::BlendPath(p) => {
+            set_once(setter, &params.blend_path, *p);
             None
         }
         // Presses are run by the editor over several frames.

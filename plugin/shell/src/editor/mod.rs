@@ -20,6 +20,8 @@ pub mod controls;
 pub mod model_panel;
 pub mod piano_roll;
 pub mod press;
+pub mod shape_view;
+pub mod shaping;
 pub mod sliders;
 pub mod takes;
 pub mod theme;
@@ -240,6 +242,7 @@ impl NiceEguiApp for EditorApp {
             kept: &self.kept,
             events_refused: audio.events_refused.load(Ordering::Relaxed),
             transient: self.transient.as_ref().map(|(t, _)| t.as_str()),
+            shape: shape_view::read(&self.params),
         };
         let screen = view_model::screen(&inputs);
 
@@ -299,6 +302,8 @@ fn layout(
                     sliders::show(ui, &screen.sliders, &screen.take_column, actions);
                     ui.add_space(4.0);
                     take_settings(ui, params, actions);
+                    ui.add_space(2.0);
+                    shaping::show(ui, &screen.shape, actions);
                 });
                 card(ui, "TAKES", |ui| match &screen.takes_hint {
                     Some(hint) => {

@@ -1,5 +1,6 @@
-//! The axis sliders: one row per model axis, with the slider's value and
-//! the measured attribute of the prompt and the selected take beside it.
+//! The axis sliders: one row per model axis, with a hold toggle, the
+//! slider's value and the measured attribute of the prompt and the selected
+//! take beside it.
 //!
 //! The slider is drawn by hand rather than with egui's: it is centred on 0
 //! (a nudge goes either way), shades the ranges where the model is known to
@@ -12,13 +13,13 @@ use super::view_model::SliderView;
 use egui::{pos2, vec2, CornerRadius, Rect, Sense, Stroke, Ui};
 
 /// Slider track size in points.
-const TRACK_WIDTH: f32 = 220.0;
+const TRACK_WIDTH: f32 = 190.0;
 const ROW_HEIGHT: f32 = 26.0;
 /// Slider resolution: the parameter's step size.
 const STEP: f32 = 0.01;
 
-/// Draws the sliders as a table: axis, slider, value, then the measured
-/// attribute of the prompt and of the selected take.
+/// Draws the sliders as a table: axis, hold toggle, slider, value, then the
+/// measured attribute of the prompt and of the selected take.
 pub fn show(ui: &mut Ui, rows: &[SliderView], take_column: &str, actions: &mut Vec<Action>) {
     if rows.is_empty() {
         ui.label(egui::RichText::new("The loaded model has no control axes.").color(theme::DIM));
@@ -26,9 +27,10 @@ pub fn show(ui: &mut Ui, rows: &[SliderView], take_column: &str, actions: &mut V
     }
     let heading = |text: &str| egui::RichText::new(text).size(11.0).color(theme::DIM);
     egui::Grid::new("axis-sliders")
-        .num_columns(5)
+        .num_columns(6)
         .spacing([10.0, 2.0])
         .show(ui, |ui| {
+            ui.label("");
             ui.label("");
             ui.label(heading("less  ·  nudge  ·  more"));
             ui.label("");
@@ -38,12 +40,25 @@ pub fn show(ui: &mut Ui, rows: &[SliderView], take_column: &str, actions: &mut V
             for row in rows {
                 ui.label(egui::RichText::new(&row.label).strong())
                     .on_hover_text(&row.tooltip);
+                if ui
+                    .selectable_label(row.held, egui::RichText::new("Hold").size(11.0))
+                    .on_hover_text(&row.hold_tip)
+                    .clicked()
+                {
+                    actions.push(Action::Hold {
+                        slot: row.slot,
+                        on: !row.held,
+                    });
+                }
                 slider(ui, row, actions);
-                ui.label(
+                let value = if row.held {
+                    egui::RichText::new("held").monospace().color(theme::DIM)
+                } else {
                     egui::RichText::new(&row.value_text)
                         .monospace()
-                        .color(theme::BRASS),
-                );
+                        .color(theme::BRASS)
+                };
+                ui.label(value);
                 ui.label(egui::RichText::new(&row.prompt_text).color(theme::LAMP));
                 ui.label(
                     egui::RichText::new(row.take_text.as_deref().unwrap_or("–")).color(theme::TIDE),
@@ -146,14 +161,12 @@ fn slider(ui: &mut Ui, row: &SliderView, actions: &mut Vec<Action>) {
             theme::HOLE.gamma_multiply(0.35 + 0.65 * rate),
         );
     }
-    // Filled from the centre to the value: which way and how far.
+    // Filled from the centre to the value: which way and how far. A held
+    // attribute's slider is set aside, so it is drawn faded.
+    let accent = if row.held { theme::DIM } else { theme::BRASS };
     let (a, b) = (x_of(track, 0.0), x_of(track, value));
     let fill = Rect::from_min_max(pos2(a.min(b), mid_y - 3.0), pos2(a.max(b), mid_y + 3.0));
-    painter.rect_filled(
-        fill,
-        CornerRadius::same(2),
-        theme::BRASS.gamma_multiply(0.8),
-    );
+    painter.rect_filled(fill, CornerRadius::same(2), accent.gamma_multiply(0.8));
     // Centre and end ticks.
     for (v, h) in [(-1.0, 5.0), (0.0, 8.0), (1.0, 5.0)] {
         let x = x_of(track, v);
@@ -161,7 +174,7 @@ fn slider(ui: &mut Ui, row: &SliderView, actions: &mut Vec<Action>) {
     }
     let knob = pos2(b, mid_y);
     let hot = response.hovered() || response.dragged();
-    painter.circle_filled(knob, if hot { 8.0 } else { 7.0 }, theme::BRASS);
+    painter.circle_filled(knob, if hot { 8.0 } else { 7.0 }, accent);
     painter.circle_stroke(knob, 7.0, Stroke::new(1.5, theme::RIVER));
 }
 

@@ -54,7 +54,7 @@ pub const HOLE: Color32 = Color32::from_rgb(0x8a, 0x3b, 0x3b);
 /// The editor's size in logical pixels: room for the prompt, six sliders
 /// and two rows of four takes without scrolling.
 pub const WINDOW_WIDTH: u32 = 1000;
-pub const WINDOW_HEIGHT: u32 = 660;
+pub const WINDOW_HEIGHT: u32 = 740;
 
 /// Sets egui's own widgets (buttons, text fields, combo boxes) to the
 /// palette, and lets proportional text fall back on the monospace font

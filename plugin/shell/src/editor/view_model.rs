@@ -3,6 +3,7 @@
 //! [`screen`], so it can be tested without a display and the drawing code
 //! only lays it out.
 
+use super::shape_view::{self, ShapeInputs, ShapeView};
 use crate::capture::CaptureStatus;
 use crate::params::{Listen, AXIS_SLOTS};
 use crate::state::KeptTake;
@@ -33,6 +34,8 @@ pub struct Inputs<'a> {
     pub events_refused: u32,
     /// A short-lived notice of the editor's own (e.g. "nothing played").
     pub transient: Option<&'a str>,
+    /// The shaping parameters (key, holds, aim, blend).
+    pub shape: ShapeInputs,
 }
 
 /// The whole screen.
@@ -51,6 +54,8 @@ pub struct Screen {
     pub takes_hint: Option<String>,
     pub kept: Vec<KeptRow>,
     pub model: ModelPanel,
+    /// Key, aim, blend and hold leeway, with the worker's report on the set.
+    pub shape: ShapeView,
     pub notices: Vec<Notice>,
 }
 
@@ -106,6 +111,10 @@ pub struct SliderView {
     pub unreliable: Vec<(f32, f32, f32)>,
     /// Hover text: what the axis measures and how far a full throw moves.
     pub tooltip: String,
+    /// The attribute is held near the prompt's (its slider is set aside).
+    pub held: bool,
+    /// Hover text of the hold toggle: what is held and how near.
+    pub hold_tip: String,
 }
 
 /// One take in the grid.
@@ -220,6 +229,7 @@ pub fn screen(input: &Inputs) -> Screen {
             })
             .collect(),
         model: model_panel(w),
+        shape: shape_view::shape(&input.shape, w, input.kept),
         notices: notices(input),
     }
 }
@@ -346,6 +356,8 @@ fn sliders(input: &Inputs, take: Option<&Readout>) -> Vec<SliderView> {
                     }
                 }),
                 unreliable: unreliable_bands(&axis.hole_rate),
+                held: input.shape.holds[slot],
+                hold_tip: shape_view::hold_tip(a, input.shape.leeway),
                 tooltip: format!(
                     "{}: {} ({}). A full throw moves the code {} along this axis; the take's measured value is shown, not assumed.",
                     axis.label,
@@ -741,6 +753,7 @@ mod tests {
             kept,
             events_refused: 0,
             transient: None,
+            shape: ShapeInputs::default(),
         }
     }
 
@@ -756,7 +769,9 @@ mod tests {
                 spread: 0.5,
                 seed: 1,
                 index: 1,
+                shaping: Default::default(),
             },
+            latent: Vec::new(),
             stream: 0,
             model: ModelIdentity {
                 name: "ferry calls".into(),
