@@ -51,10 +51,11 @@ pub const INFO: Color32 = Color32::from_rgb(0x8f, 0xb8, 0xd8);
 pub const TRACK: Color32 = Color32::from_rgb(0x2b, 0x38, 0x45);
 pub const HOLE: Color32 = Color32::from_rgb(0x8a, 0x3b, 0x3b);
 
-/// The editor's size in logical pixels: room for the prompt, six sliders
-/// and two rows of four takes without scrolling.
+/// The editor's size in logical pixels: room for the prompt, six sliders,
+/// the shaping rows with a few report lines, and a row of four takes
+/// without scrolling.
 pub const WINDOW_WIDTH: u32 = 1000;
-pub const WINDOW_HEIGHT: u32 = 740;
+pub const WINDOW_HEIGHT: u32 = 720;
 
 /// Sets egui's own widgets (buttons, text fields, combo boxes) to the
 /// palette, and lets proportional text fall back on the monospace font
