@@ -64,6 +64,8 @@ pub struct Nudgebar {
     shared: Arc<Shared>,
     /// Command sender for the editor and main thread.
     commands: Sender<Command>,
+    /// The editor's window threads, waited for when the plugin is destroyed.
+    window_threads: Arc<editor::window_threads::WindowThreads>,
     /// The audio thread's channel ends.
     link: AudioLink,
     /// The worker's channel ends, until the worker starts (first activation:
@@ -123,6 +125,18 @@ impl Triggers {
     }
 }
 
+impl Drop for Nudgebar {
+    fn drop(&mut self) {
+        // The host may unload the library right after destroying us; an
+        // editor window thread still tearing down its OpenGL display would
+        // then run code that is gone (editor/window_threads.rs). CLAP hosts
+        // close the editor before destroying the plugin, so this normally
+        // waits a few milliseconds; the bound keeps a host from hanging.
+        self.window_threads
+            .wait_until_ended(std::time::Duration::from_secs(3));
+    }
+}
+
 impl Default for Nudgebar {
     fn default() -> Self {
         Self::with_builtin_model(Arc::new(builtin_model))
@@ -148,6 +162,7 @@ impl Nudgebar {
             params,
             shared,
             commands,
+            window_threads: Arc::default(),
             link,
             worker_link: Some(worker_link),
             worker: None,
@@ -243,6 +258,7 @@ impl Plugin for Nudgebar {
             self.params.clone(),
             self.shared.clone(),
             self.commands.clone(),
+            self.window_threads.clone(),
         )
     }
 

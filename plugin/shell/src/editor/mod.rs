@@ -26,6 +26,7 @@ pub mod sliders;
 pub mod takes;
 pub mod theme;
 pub mod view_model;
+pub mod window_threads;
 
 use crate::link::Command;
 use crate::params::{Listen, NudgebarParams, MAX_TAKES};
@@ -45,6 +46,7 @@ use std::sync::atomic::Ordering;
 use std::sync::Arc;
 use std::time::{Duration, Instant};
 use view_model::{Inputs, Level, Screen};
+use window_threads::WindowThreads;
 
 /// The editor type the plugin declares.
 pub type NudgebarEditor = EguiEditor<EditorApp>;
@@ -59,6 +61,7 @@ pub fn create(
     params: Arc<NudgebarParams>,
     shared: Arc<Shared>,
     commands: Sender<Command>,
+    window_threads: Arc<WindowThreads>,
 ) -> Option<NudgebarEditor> {
     let state = EguiEditorState::from_size(
         LogicalSize::new(theme::WINDOW_WIDTH as f64, theme::WINDOW_HEIGHT as f64),
@@ -69,7 +72,7 @@ pub fn create(
         state,
         RepaintNotifier::new(),
         settings,
-        EditorApp::new(params, shared, commands),
+        EditorApp::new(params, shared, commands, window_threads),
     )
 }
 
@@ -82,6 +85,8 @@ pub struct EditorApp {
     shared: Arc<Shared>,
     /// The worker's command channel (bounded; only `try_send`).
     commands: Sender<Command>,
+    /// Window threads the plugin must outlive (see [`window_threads`]).
+    window_threads: Arc<WindowThreads>,
     /// The host's side of parameter changes; set when a window opens.
     gui: Option<GuiContext>,
     /// Kept takes, copied from the session when it changes (by its edit
@@ -105,6 +110,7 @@ impl EditorApp {
         params: Arc<NudgebarParams>,
         shared: Arc<Shared>,
         commands: Sender<Command>,
+        window_threads: Arc<WindowThreads>,
     ) -> Self {
         let seen_grabs_empty = shared.audio.grabs_empty.load(Ordering::Relaxed);
         let seen_keeps_refused = shared.audio.keeps_refused.load(Ordering::Relaxed);
@@ -112,6 +118,7 @@ impl EditorApp {
             params,
             shared,
             commands,
+            window_threads,
             gui: None,
             kept: Vec::new(),
             kept_edits: None,
@@ -205,6 +212,8 @@ impl NiceEguiApp for EditorApp {
         gui: GuiContext,
         _frame: &mut Frame,
     ) -> Result<(), nice_plug_egui::baseview::HandlerError> {
+        // Runs on the window's own thread as its window is built.
+        self.window_threads.enter();
         theme::apply(&egui_ctx);
         self.gui = Some(gui);
         if self.model_path.is_empty() {
