@@ -10,16 +10,6 @@ use nudgebar_music::demo_prompts;
 use nudgebar_tests::tiny_model;
 use steer_support::bar;
 
-fn request() -> VariationRequest {
-    VariationRequest {
-        offsets: vec![0.6, 0.0],
-        takes: 6,
-        spread: 1.2,
-        seed: 11,
-        ..VariationRequest::default()
-    }
-}
-
 #[test]
 fn every_returned_take_keeps_its_locks() {
     // The demo model, on every Wrenmouth demo prompt: widen the takes'
