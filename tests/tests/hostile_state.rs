@@ -1,9 +1,10 @@
 //! Hostile saved sessions: thousands of seeded corruptions of a real session
-//! blob fed to the plugin's session loader (`nudgebar::state`). The loader
-//! lives in the plugin crate (nice-plug + tract), which cargo-fuzz cannot
-//! build cheaply, so this seeded mutation test stands in for a fuzz target:
-//! byte flips, cuts and splices of the JSON text, and value swaps inside the
-//! parsed JSON (wrong types, huge and negative numbers, deep nesting).
+//! blob fed to the plugin's session loader (`nudgebar::state`, which is
+//! `nudgebar_contract::session`): byte flips, cuts and splices of the JSON
+//! text, and value swaps inside the parsed JSON (wrong types, huge and
+//! negative numbers, deep nesting). The `session` fuzz target explores the
+//! same loader without a plan; this test runs the same 3000 mutants in
+//! every test run.
 //!
 //! Properties, for every mutant: the loader never panics; what it keeps is
 //! valid (1–4 measures, a real metre, MIDI-range notes inside the phrase, at
