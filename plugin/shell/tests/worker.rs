@@ -211,8 +211,23 @@ fn a_panicking_model_loader_is_caught_and_reported() {
     let (audio, worker_link, _commands) = channels();
     let params = Arc::new(NudgebarParams::default());
     let shared = Arc::new(Shared::default());
+    // A project with a prompt and two kept takes (the committed blob of
+    // session version 1), opened before the worker starts.
+    let blob: serde_json::Value = serde_json::from_str(
+        &std::fs::read_to_string(
+            std::path::Path::new(env!("CARGO_MANIFEST_DIR"))
+                .join("../../tests/fixtures/state/session-v1.json"),
+        )
+        .unwrap(),
+    )
+    .unwrap();
+    let session = nudgebar::state::SessionState::load_lenient(
+        blob["fields"]["session"].as_str().unwrap(),
+    );
+    assert_eq!(session.kept.len(), 2);
+    params.session.load(session.clone());
     let panicking: BuiltinModel = Arc::new(|| panic!("weights on fire"));
-    let handle = spawn(worker_link, params, shared.clone(), panicking);
+    let handle = spawn(worker_link, params.clone(), shared.clone(), panicking);
     let view = wait_for(&shared, "the error", |v| v.model_error.is_some());
     let error = view.model_error.clone().unwrap();
     assert!(
@@ -222,6 +237,12 @@ fn a_panicking_model_loader_is_caught_and_reported() {
     assert!(view.model.is_none());
     drop(handle);
     drop(audio);
+    // Nothing of the project was lost to the crash: the prompt and kept
+    // takes are still there and still what the host would save.
+    params.session.read(|now| {
+        assert_eq!(now.prompt, session.prompt);
+        assert_eq!(now.kept, session.kept);
+    });
 }
 
 #[test]
