@@ -20,7 +20,7 @@ use nudgebar_engine::steer::{Interpolation, Outcome};
 use nudgebar_engine::{Engine, NoteChoice, PitchMask};
 use nudgebar_music::attributes::Attribute;
 use nudgebar_music::{Phrase, TimeSignature};
-use nudgebar_tests::host::{HostTransport, ParamSummary, Session};
+use nudgebar_tests::host::{HostTransport, ParamSummary, Session, StateBlob};
 use plugin_support::*;
 use serde_json::Value;
 use std::sync::{Arc, Mutex};
@@ -342,4 +342,48 @@ fn blend_ends_are_the_prompts_decode_and_the_kept_takes_decode() {
     });
     assert_eq!(v.takes[0].phrase, kept_phrase);
     s.ledger.assert_clean("blend");
+}
+
+#[test]
+fn a_kept_take_saved_without_its_code_is_blended_toward_by_its_notes() {
+    let (mut s, ids, shared) = demo_session();
+    captured(&mut s, &ids, &shared);
+    let kept = keep_selected(&mut s, &ids);
+    let kept_phrase: Phrase = serde_json::from_value(kept["phrase"].clone()).unwrap();
+
+    // Reopen the project as a session from before kept takes saved their
+    // latent code (the field is simply absent).
+    let mut blob = StateBlob::parse(&s.plugin.save_state().unwrap()).unwrap();
+    let mut session = blob.field("session").unwrap();
+    assert!(session["kept"][0]
+        .as_object_mut()
+        .unwrap()
+        .remove("latent")
+        .is_some());
+    blob.set_field("session", &session);
+    s.plugin.load_state(&blob.to_bytes()).unwrap();
+    assert_eq!(kept_phrases(&mut s.plugin), vec![kept_phrase.clone()]);
+
+    set(&mut s, ids::BLEND_TOWARD, "Kept 1");
+    set(&mut s, ids::BLEND, "100%");
+    let v = wait_for_set(&mut s, &shared, "a blend toward the code-less take", |v| {
+        v.report
+            .blend
+            .as_ref()
+            .is_some_and(|b| b.amount == 1.0 && b.reencoded)
+    });
+    assert!(v.request_error.is_none(), "{:?}", v.request_error);
+    let line = v
+        .report
+        .lines()
+        .into_iter()
+        .find(|l| l.text.starts_with("Blending"))
+        .expect("a blend line");
+    assert!(line.text.contains("notes were encoded"), "{}", line.text);
+    // Blending toward it still makes takes in the prompt's metre.
+    assert!(v
+        .takes
+        .iter()
+        .all(|t| t.phrase.time_signature == kept_phrase.time_signature));
+    s.ledger.assert_clean("blend toward an older take");
 }

@@ -17,7 +17,8 @@ pub struct VaryArgs {
     /// A model package folder; the built-in demo model when left out.
     #[arg(long)]
     model: Option<PathBuf>,
-    /// A preset file (JSON) to start from; flags below override it.
+    /// A preset file (JSON) to start from (its sliders, takes, spread, seed and
+    /// holds); flags below override it.
     #[arg(long)]
     preset: Option<PathBuf>,
     /// Move along an axis: ATTRIBUTE=VALUE, e.g. note_density=0.6 or contour=-1 (±1 spans the axis). Repeatable.
@@ -56,7 +57,16 @@ pub fn run(args: VaryArgs) -> Result<(), String> {
         midi_file::read_smf(&bytes).map_err(|e| format!("{}: {e}", args.prompt.display()))?;
     let mut engine = model::load(args.model.as_deref())?;
     let request = build_request(&args, engine.axes().iter().map(|a| a.attribute).collect())?;
-    let locks = parse_locks(&args.locks)?;
+    let mut locks = parse_locks(&args.locks)?;
+    // A preset's holds, unless a --lock sets that attribute's tolerance.
+    if let Some(path) = &args.preset {
+        let preset = Preset::load(path).map_err(|e| e.to_string())?;
+        for l in preset.locks() {
+            if !locks.iter().any(|m| m.attribute == l.attribute) {
+                locks.push(l);
+            }
+        }
+    }
     let (variation, lock_note) = if locks.is_empty() {
         let v = engine
             .vary(&import.phrase, &request)

@@ -18,6 +18,12 @@
 //! `nudgebar_music::attributes::Attribute::key`), not by slider position, so
 //! a preset means the same on any model that has an axis for the attribute;
 //! attributes the model has no axis for are ignored. Missing attributes are 0.
+//!
+//! `holds` (optional) lists attributes kept near the prompt's value (locks
+//! at [`crate::steer::default_tolerance`]), e.g. `["note_density"]` for
+//! "wider, but as busy". The other shaping settings stay out of presets on
+//! purpose: a key's tonic, an aim's value and a blend's kept take belong to
+//! one prompt or project, not to a reusable slider setting.
 
 use crate::variation::{VariationRequest, MAX_TAKES};
 use nudgebar_music::attributes::Attribute;
@@ -41,6 +47,9 @@ pub struct Preset {
     /// Slider value per attribute key.
     #[serde(default)]
     pub offsets: BTreeMap<String, f32>,
+    /// Attributes held near the prompt's value, by key.
+    #[serde(default, skip_serializing_if = "Vec::is_empty")]
+    pub holds: Vec<String>,
     pub takes: usize,
     pub spread: f32,
     pub seed: u64,
@@ -93,6 +102,7 @@ impl Preset {
             name: name.into(),
             description: String::new(),
             offsets: BTreeMap::new(),
+            holds: Vec::new(),
             takes: d.takes,
             spread: d.spread,
             seed: d.seed,
@@ -159,6 +169,27 @@ impl Preset {
                     format!("the \"{key}\" slider"),
                     value.to_string(),
                     "between -1 and 1",
+                );
+            }
+        }
+        for (i, key) in self.holds.iter().enumerate() {
+            if Attribute::from_key(key).is_none() {
+                let known = Attribute::ALL
+                    .iter()
+                    .map(|a| a.key())
+                    .collect::<Vec<_>>()
+                    .join(", ");
+                return Err(PresetError::UnknownAttribute {
+                    file: file.into(),
+                    key: key.clone(),
+                    known,
+                });
+            }
+            if self.holds[..i].contains(key) {
+                return out(
+                    "holds".into(),
+                    format!("{key:?} twice"),
+                    "a list of distinct attributes",
                 );
             }
         }
@@ -232,6 +263,18 @@ impl Preset {
         self.offsets.get(attribute.key()).copied().unwrap_or(0.0)
     }
 
+    /// The preset's holds as locks at the default tolerance.
+    pub fn locks(&self) -> Vec<crate::steer::Lock> {
+        self.holds
+            .iter()
+            .filter_map(|k| Attribute::from_key(k))
+            .map(|attribute| crate::steer::Lock {
+                attribute,
+                tolerance: crate::steer::default_tolerance(attribute),
+            })
+            .collect()
+    }
+
     /// A request for a model whose axes control `axes`, in axis order.
     pub fn request(&self, axes: &[Attribute]) -> VariationRequest {
         VariationRequest {
@@ -291,6 +334,19 @@ mod tests {
                     .to_json()
                     .replace("\"seed\": 1", "\"seed\": 1, \"extra\": 2"),
                 "extra",
+            ),
+            (
+                good()
+                    .to_json()
+                    .replace("\"takes\"", "\"holds\": [\"loudness\"], \"takes\""),
+                "loudness",
+            ),
+            (
+                good().to_json().replace(
+                    "\"takes\"",
+                    "\"holds\": [\"contour\", \"contour\"], \"takes\"",
+                ),
+                "twice",
             ),
         ];
         for (json, needle) in cases {

@@ -102,6 +102,14 @@ pub fn preset_from_params(params: &NudgebarParams, axes: &[Attribute], name: &st
             preset.offsets.insert(attribute.key().to_string(), v);
         }
     }
+    for (slot, hold) in params.hold_params().iter().enumerate() {
+        let Some(a) = binding.slots[slot].map(|i| axes[i]) else {
+            continue;
+        };
+        if hold.value() && !preset.holds.iter().any(|k| k == a.key()) {
+            preset.holds.push(a.key().to_string());
+        }
+    }
     preset.takes = steering.takes;
     preset.spread = (steering.spread * 100.0).round() / 100.0;
     preset.seed = steering.seed;
@@ -113,13 +121,21 @@ pub fn preset_from_params(params: &NudgebarParams, axes: &[Attribute], name: &st
 /// silent — so applying a preset fully replaces the previous settings.
 pub fn param_values(preset: &Preset, axes: &[Attribute]) -> Vec<(&'static str, f32)> {
     let binding = AxisBinding::for_axes(axes);
-    let mut out = Vec::with_capacity(AXIS_SLOTS + 3);
+    let mut out = Vec::with_capacity(2 * AXIS_SLOTS + 3);
     for slot in 0..AXIS_SLOTS {
         let attribute = match binding.slots[slot] {
             Some(a) => Some(axes[a]),
             None => NAMED_AXES.get(slot).copied(),
         };
         out.push((ids::AXES[slot], attribute.map_or(0.0, |a| preset.offset(a))));
+    }
+    // Holds too are fully replaced: on where the preset holds the slot's
+    // attribute, off elsewhere.
+    for slot in 0..AXIS_SLOTS {
+        let held = binding.slots[slot]
+            .map(|a| axes[a])
+            .is_some_and(|a| preset.holds.iter().any(|k| k == a.key()));
+        out.push((ids::HOLDS[slot], if held { 1.0 } else { 0.0 }));
     }
     out.push((ids::TAKES, preset.takes as f32));
     out.push((ids::SPREAD, preset.spread));
@@ -164,6 +180,7 @@ mod tests {
             }
             let back = preset_from_params(&params, &axes, &preset.name);
             assert_eq!(back.offsets, preset.offsets, "{}", preset.name);
+            assert_eq!(back.holds, preset.holds, "{}", preset.name);
             assert_eq!(
                 (back.takes, back.spread, back.seed),
                 (preset.takes, preset.spread, preset.seed)

@@ -264,17 +264,10 @@ impl BlendPath {
 }
 
 /// How near the prompt's value a hold keeps an attribute, at leeway ×1, in
-/// the attribute's own unit. Chosen so a hold at ×1 is audibly "the same":
-/// one note more or less per bar; a whole tone of range, contour slope or
-/// register either way; a tenth of the 0–1 complexity scale.
+/// the attribute's own unit: the engine's default lock tolerance (one note,
+/// a whole tone of range, contour or register, a tenth of complexity).
 pub fn hold_tolerance(attribute: Attribute) -> f64 {
-    match attribute {
-        Attribute::NoteDensity => 1.0,
-        Attribute::PitchRange => 2.0,
-        Attribute::RhythmicComplexity => 0.1,
-        Attribute::Contour => 2.0,
-        Attribute::MeanPitch => 2.0,
-    }
+    nudgebar_engine::steer::default_tolerance(attribute)
 }
 
 /// How close an aimed take must measure to count as reached: half a note,

@@ -18,6 +18,21 @@ pub const MAX_LOCK_ROUNDS: usize = 8;
 /// Each round's wander is this fraction of the last one's.
 const NARROWING: f32 = 0.7;
 
+/// How near the prompt's value a lock keeps an attribute when no tolerance
+/// is given (presets, the plugin's holds at leeway ×1), in the attribute's
+/// unit: one note more or less per measure; a whole tone of range, contour
+/// slope or register; a tenth of the 0–1 complexity scale. Chosen so a
+/// locked attribute sounds "the same" (a judgement, not a published norm).
+pub fn default_tolerance(attribute: Attribute) -> f64 {
+    match attribute {
+        Attribute::NoteDensity => 1.0,
+        Attribute::PitchRange => 2.0,
+        Attribute::RhythmicComplexity => 0.1,
+        Attribute::Contour => 2.0,
+        Attribute::MeanPitch => 2.0,
+    }
+}
+
 /// Keep `attribute` within `tolerance` (in the attribute's unit) of the prompt's value.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
 pub struct Lock {

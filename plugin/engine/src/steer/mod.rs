@@ -10,7 +10,7 @@ pub mod sweep;
 pub mod target;
 
 pub use blend::{interpolate, Blend, BlendStep, Interpolation};
-pub use locks::{Lock, LockedVariation, MAX_LOCK_ROUNDS};
+pub use locks::{default_tolerance, Lock, LockedVariation, MAX_LOCK_ROUNDS};
 pub use scale::{KeyScale, Scale};
 pub use sweep::{slider_grid, spearman, steering, Steering, SweepPoint};
 pub use target::{Outcome, Target, TargetResult, DEFAULT_BUDGET, MAX_BUDGET};
