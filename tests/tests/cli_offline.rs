@@ -174,7 +174,7 @@ fn inspect_prints_the_demo_contract() {
     let o = run(&["inspect", "--json"]);
     assert!(o.status.success());
     let v: serde_json::Value = serde_json::from_slice(&o.stdout).unwrap();
-    assert_eq!(v["manifest"]["latent_size"], 16);
+    assert_eq!(v["manifest"]["latent_size"], 32);
     let axes: Vec<&str> = v["manifest"]["axes"]
         .as_array()
         .unwrap()
@@ -192,7 +192,7 @@ fn inspect_prints_the_demo_contract() {
     );
     let text = String::from_utf8(run(&["inspect"]).stdout).unwrap();
     assert!(
-        text.contains("latent size 16") && text.contains("Density"),
+        text.contains("latent size 32") && text.contains("Density"),
         "{text}"
     );
 }

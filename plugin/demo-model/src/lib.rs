@@ -10,9 +10,9 @@ use nudgebar_contract::{ModelOrigin, ModelPackage};
 
 /// The manifest, as shipped.
 pub const MANIFEST: &str = include_str!("../package/manifest.json");
-/// The encoder: one-hot tokens `[batch, 16, 38]` → mean and log-variance `[batch, 16]`.
+/// The encoder: one-hot tokens `[batch, 16, 38]` → mean and log-variance `[batch, 32]`.
 pub const ENCODER: &[u8] = include_bytes!("../package/encoder.onnx");
-/// The decoder: latent code `[batch, 16]` → logits `[batch, 16, 38]`.
+/// The decoder: latent code `[batch, 32]` → logits `[batch, 16, 38]`.
 pub const DECODER: &[u8] = include_bytes!("../package/decoder.onnx");
 
 /// The embedded package. Its manifest is checked by a test on every build,
@@ -33,7 +33,7 @@ mod tests {
     fn the_embedded_manifest_parses_and_names_four_axes() {
         let p = super::package();
         assert_eq!(p.manifest.axes.len(), 4);
-        assert_eq!(p.manifest.latent_size, 16);
+        assert_eq!(p.manifest.latent_size, 32);
         // Well under the 2 MB the issue allows for the whole package.
         assert!(super::ENCODER.len() + super::DECODER.len() + super::MANIFEST.len() < 2_000_000);
     }

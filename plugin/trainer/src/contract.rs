@@ -20,7 +20,7 @@ pub const CLASSES: usize = 38;
 /// One-hot input values per measure.
 pub const INPUT: usize = STEPS * CLASSES;
 /// Length of the latent code.
-pub const LATENT: usize = 16;
+pub const LATENT: usize = 32;
 
 /// The regularized attributes; `REGULARIZED[r]` is tied to latent dimension `r`.
 pub const REGULARIZED: [Attribute; 4] = [

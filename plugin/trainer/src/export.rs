@@ -100,9 +100,13 @@ pub fn manifest(stats: &[(f32, f32)], description: &str) -> Manifest {
 pub fn package(vae: &Vae, manifest: &Manifest) -> Result<ModelPackage> {
     let (enc, dec) = vae.to_specs()?;
     let mut enc_graph = encoder_graph(&enc);
-    enc_graph.doc("Nudgebar demo encoder: one 4/4 measure of one-hot tokens to a 16-dimensional latent mean and log-variance.");
+    enc_graph.doc(&format!(
+        "Nudgebar demo encoder: one 4/4 measure of one-hot tokens to a {LATENT}-dimensional latent mean and log-variance."
+    ));
     let mut dec_graph = decoder_graph(&dec);
-    dec_graph.doc("Nudgebar demo decoder: a 16-dimensional latent code to per-step token logits.");
+    dec_graph.doc(&format!(
+        "Nudgebar demo decoder: a {LATENT}-dimensional latent code to per-step token logits."
+    ));
     let json = manifest.to_json();
     let package = ModelPackage::from_parts(
         &json,

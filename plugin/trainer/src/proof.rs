@@ -54,9 +54,10 @@ pub const ISSUE_TARGETS: Thresholds = Thresholds {
 /// edited model that gets worse anywhere fails.
 pub const REGRESSION_FLOORS: Thresholds = Thresholds {
     min_spearman: 0.9,
-    spearman_floors: &[(Attribute::PitchRange, 0.55), (Attribute::Contour, 0.75)],
+    // Shipped: range 0.822, contour 0.849, reconstruction 77.1 % (REPORT.md).
+    spearman_floors: &[(Attribute::PitchRange, 0.78), (Attribute::Contour, 0.8)],
     max_cross_ratio: 0.5,
-    min_reconstruction: 0.68,
+    min_reconstruction: 0.75,
 };
 
 #[derive(Debug, Clone, Serialize)]

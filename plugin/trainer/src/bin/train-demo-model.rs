@@ -2,7 +2,9 @@
 //! and plugin/demo-model/REPORT.md. Run through `cargo xtask train-demo-model`.
 //!
 //! usage: train-demo-model [--quick] [--steps N] [--corpus N] [--seed S] [--out DIR]
-//!        [--beta B] [--gamma G] [--delta D] [--lr L] [--batch N] [--hidden 256,128]
+//!        [--beta B] [--gamma G] [--delta D] [--lr L] [--batch N] [--warmup N]
+//!        [--regularized-beta-scale F] [--hidden 256,128]
+//!        [--encoder-hidden 256,128] [--decoder-hidden 128,256]
 //!        (for experiments;
 //!        the shipped model uses the defaults in `TrainConfig`)
 //!        train-demo-model --evaluate PACKAGE_DIR   (only the steering proof)
@@ -19,7 +21,7 @@ use std::time::Instant;
 
 /// Corpus seed and size of the shipped model.
 const CORPUS_SEED: u64 = 0xFE22_7CA1;
-const CORPUS_SIZE: usize = 40_000;
+const CORPUS_SIZE: usize = 400_000;
 
 fn main() {
     // candle's CPU kernels spin at a barrier between parallel chunks; on a
@@ -29,11 +31,37 @@ fn main() {
     if std::env::var_os("RAYON_NUM_THREADS").is_none() {
         std::env::set_var("RAYON_NUM_THREADS", "1");
     }
+    keep_freed_memory();
     if let Err(e) = run() {
         eprintln!("train-demo-model: {e:#}");
         std::process::exit(1);
     }
 }
+
+/// Every training step allocates and frees the same few hundred tensors.
+/// By default glibc hands freed memory at the top of the heap back to the
+/// system, so the next step faults fresh zeroed pages in again: measured
+/// here, that was over half of the training time. Keeping freed memory
+/// (and serving blocks up to 32 MB from the heap) makes training about twice
+/// as fast; the arithmetic, and so every weight, is unchanged.
+#[cfg(all(target_os = "linux", target_env = "gnu"))]
+fn keep_freed_memory() {
+    extern "C" {
+        fn mallopt(param: i32, value: i32) -> i32;
+    }
+    // From glibc's malloc.h.
+    const M_TRIM_THRESHOLD: i32 = -1;
+    const M_MMAP_THRESHOLD: i32 = -3;
+    // SAFETY: mallopt only changes allocator tuning; called before any
+    // thread is started.
+    unsafe {
+        mallopt(M_MMAP_THRESHOLD, 32 << 20);
+        mallopt(M_TRIM_THRESHOLD, 1 << 30);
+    }
+}
+
+#[cfg(not(all(target_os = "linux", target_env = "gnu")))]
+fn keep_freed_memory() {}
 
 fn run() -> Result<()> {
     let mut cfg = TrainConfig::default();
@@ -56,6 +84,22 @@ fn run() -> Result<()> {
             "--delta" => cfg.delta = value("--delta")?.parse()?,
             "--lr" => cfg.learning_rate = value("--lr")?.parse()?,
             "--batch" => cfg.batch = value("--batch")?.parse()?,
+            "--regularized-beta-scale" => {
+                cfg.regularized_beta_scale = value("--regularized-beta-scale")?.parse()?
+            }
+            "--warmup" => cfg.beta_warmup = value("--warmup")?.parse()?,
+            "--encoder-hidden" => {
+                cfg.architecture.encoder_hidden = value("--encoder-hidden")?
+                    .split(',')
+                    .map(|w| w.trim().parse())
+                    .collect::<Result<Vec<usize>, _>>()?;
+            }
+            "--decoder-hidden" => {
+                cfg.architecture.decoder_hidden = value("--decoder-hidden")?
+                    .split(',')
+                    .map(|w| w.trim().parse())
+                    .collect::<Result<Vec<usize>, _>>()?;
+            }
             "--hidden" => {
                 let widths = value("--hidden")?
                     .split(',')
