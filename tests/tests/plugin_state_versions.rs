@@ -83,6 +83,9 @@ fn every_released_session_version_opens_whole() {
         assert!(expected.len() >= 2, "{what}: the fixture keeps takes");
         let now = saved_session(&mut plugin);
         assert_eq!(phrases(&now), expected, "{what}: kept takes");
+        // …and everything else they recorded (settings, shaping, latent
+        // code, readouts): new fields default to empty and are not written.
+        assert_eq!(now["kept"], old_session["kept"], "{what}: kept takes in full");
         // The prompt.
         let prompt: Phrase = serde_json::from_value(old_session["prompt"]["phrase"].clone()).unwrap();
         let prompt_now: Phrase = serde_json::from_value(now["prompt"]["phrase"].clone()).unwrap();
@@ -108,7 +111,7 @@ fn every_released_session_version_opens_whole() {
 
 /// Writes the fixture for this build's session version: a session on the
 /// built-in demo model with a captured ferry call at 104 BPM, the density
-/// slider moved, and two takes kept. Run it once when a release changes the
+/// slider moved, the key set to D Dorian, and two takes kept. Run it once when a release changes the
 /// session format, check the file in, and never rewrite an older one.
 #[test]
 #[ignore = "writes tests/fixtures/state/session-v<N>.json; run by hand for a new session version"]
@@ -120,6 +123,11 @@ fn write_the_fixture_for_this_session_version() {
     transport.playing = true;
     let mut s = nudgebar_tests::host::Session::start(plugin, SAMPLE_RATE, BLOCK, transport).unwrap();
     set_text(&mut s, &ids.axes[0], "+0.40");
+    // Shaped takes (from version 2 on, kept takes record their shaping).
+    let key = param_by_id(&mut s.plugin, nudgebar::params::ids::KEY);
+    let scale = param_by_id(&mut s.plugin, nudgebar::params::ids::SCALE);
+    set_text(&mut s, &key, "D");
+    set_text(&mut s, &scale, "Dorian");
     capture_bar_one(&mut s, &ids, &ferry_call(ts));
     wait_for_take_notes(&mut s, &ids);
     for (n, take) in ["2", "3"].into_iter().enumerate() {

@@ -22,7 +22,10 @@ use serde_json::Value;
 
 /// The session format this build writes. Version history:
 /// - 1: prompt, kept takes, model path.
-pub const STATE_VERSION: u64 = 1;
+/// - 2: kept takes also carry their latent code (`latent`) and how their
+///   set was shaped (`settings.shaping`); both default to empty, so a
+///   version-1 session reads as a version-2 one without them.
+pub const STATE_VERSION: u64 = 2;
 
 /// Most kept takes a session holds; older ones must be removed first. Caps
 /// what a hostile blob can make the plugin hold.
@@ -184,7 +187,9 @@ impl SessionState {
             };
         };
         match map.get("version").and_then(Value::as_u64) {
-            Some(STATE_VERSION) => {}
+            // Every older version is a subset of this one (new fields have
+            // defaults); it loads whole and is saved as the current version.
+            Some(1..=STATE_VERSION) => {}
             Some(v) if v > STATE_VERSION => report.push(format!(
                 "This session was saved by a newer Nudgebar (session version {v}); what this version understands was loaded, and saving will write version {STATE_VERSION}."
             )),
@@ -460,5 +465,17 @@ mod tests {
             .kept
             .iter()
             .all(|k| k.latent.is_empty() && k.settings.shaping.is_plain()));
+    }
+
+    #[test]
+    fn an_older_version_loads_without_complaint_and_saves_as_current() {
+        let mut v = serde_json::to_value(session()).unwrap();
+        v["version"] = 1.into();
+        let loaded = SessionState::from_value(v);
+        assert!(loaded.load_report.is_empty(), "{:?}", loaded.load_report);
+        assert_eq!(loaded.kept.len(), 2);
+        assert_eq!(loaded.version, STATE_VERSION);
+        let v0 = serde_json::json!({"version": 0, "kept": []});
+        assert!(SessionState::from_value(v0).load_report[0].contains("unknown version"));
     }
 }
