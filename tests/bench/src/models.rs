@@ -19,10 +19,10 @@ use rand_chacha::ChaCha8Rng;
 use std::path::{Path, PathBuf};
 
 /// The demo contract (plugin/trainer/src/contract.rs): one 4/4 measure of sixteenths, tokens for MIDI
-/// 48–83 plus hold and rest, one-hot input, 16 latent dimensions.
+/// 48–83 plus hold and rest, one-hot input, 32 latent dimensions.
 pub const STEPS: usize = 16;
 pub const CLASSES: usize = 38;
-pub const LATENT: usize = 16;
+pub const LATENT: usize = 32;
 /// Hidden sizes of the demo network (encoder; the decoder mirrors them).
 pub const DEMO_HIDDEN: [usize; 2] = [256, 128];
 /// Hidden sizes of the synthetic large model: about 11× the demo's
@@ -178,19 +178,19 @@ mod tests {
     #[test]
     fn the_demo_model_has_the_shape_the_bench_counts_for() {
         let m = demo().unwrap();
-        // Worked by hand from the layer sizes: 608·256 + 256·128 + 2·(128·16)
-        // for the encoder (two heads), 16·128 + 128·256 + 256·608 for the decoder.
+        // Worked by hand from the layer sizes: 608·256 + 256·128 + 2·(128·32)
+        // for the encoder (two heads), 32·128 + 128·256 + 256·608 for the decoder.
         assert_eq!(
             crate::flops::macs_per_row(&m.package.encoder).unwrap(),
-            192_512
+            196_608
         );
         assert_eq!(
             crate::flops::macs_per_row(&m.package.decoder).unwrap(),
-            190_464
+            192_512
         );
         // Weights plus one bias per output.
-        let biases = (256 + 128 + 16 + 16) + (128 + 256 + 608);
-        assert_eq!(m.parameters, 192_512 + 190_464 + biases);
+        let biases = (256 + 128 + 32 + 32) + (128 + 256 + 608);
+        assert_eq!(m.parameters, 196_608 + 192_512 + biases);
         let stand_in = synthetic("stand-in", &DEMO_HIDDEN, 7).unwrap();
         assert_eq!(
             stand_in.parameters, m.parameters,
