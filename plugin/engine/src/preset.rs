@@ -151,18 +151,18 @@ impl Preset {
                 range,
             })
         };
+        let unknown = |key: &str| PresetError::UnknownAttribute {
+            file: file.into(),
+            key: key.to_string(),
+            known: Attribute::ALL
+                .iter()
+                .map(|a| a.key())
+                .collect::<Vec<_>>()
+                .join(", "),
+        };
         for (key, value) in &self.offsets {
             if Attribute::from_key(key).is_none() {
-                let known = Attribute::ALL
-                    .iter()
-                    .map(|a| a.key())
-                    .collect::<Vec<_>>()
-                    .join(", ");
-                return Err(PresetError::UnknownAttribute {
-                    file: file.into(),
-                    key: key.clone(),
-                    known,
-                });
+                return Err(unknown(key));
             }
             if !(value.is_finite() && (-1.0..=1.0).contains(value)) {
                 return out(
@@ -174,16 +174,7 @@ impl Preset {
         }
         for (i, key) in self.holds.iter().enumerate() {
             if Attribute::from_key(key).is_none() {
-                let known = Attribute::ALL
-                    .iter()
-                    .map(|a| a.key())
-                    .collect::<Vec<_>>()
-                    .join(", ");
-                return Err(PresetError::UnknownAttribute {
-                    file: file.into(),
-                    key: key.clone(),
-                    known,
-                });
+                return Err(unknown(key));
             }
             if self.holds[..i].contains(key) {
                 return out(
