@@ -128,9 +128,15 @@ fn a_metre_off_the_sixteenth_grid_is_refused_with_a_reason() {
 fn the_slider_attributes_span_wide_ranges() {
     let calls = corpus::generate(SEED, COUNT);
 
-    // Every onset count from 1 to 16 occurs in a fair share of calls.
+    // Every onset count from 3 (the fewest a call has, see corpus::MIN_ONSETS)
+    // to 16 occurs in a fair share of calls, and no call has fewer.
     let density = values(&calls, Attribute::NoteDensity);
-    for k in 1..=16 {
+    assert_eq!(corpus::MIN_ONSETS, 3);
+    assert!(
+        density.iter().all(|&d| d >= 3.0),
+        "a call with fewer than three notes"
+    );
+    for k in 3..=16 {
         let share = fraction(&density, |d| d == k as f64);
         assert!(
             share >= 0.01,

@@ -8,9 +8,9 @@
 //! The point of the corpus is to teach a model sliders, so each call is made
 //! from *targets drawn independently*, then realised exactly:
 //!
-//! 1. an onset count from 1 to the steps per measure (note density), uniform
-//!    except that the two ends are drawn a third as often (see
-//!    `draw_onset_count` for why);
+//! 1. an onset count from 3 to the steps per measure (note density), uniform
+//!    except that the full bar is drawn a third as often (see
+//!    [`MIN_ONSETS`] and `draw_onset_count` for why);
 //! 2. a place within the complexity span that onset count allows (rhythmic
 //!    complexity) — the rhythm is then sampled from the crews' rhythm cells
 //!    among those that hit both targets ([`rhythm`]);
@@ -116,22 +116,28 @@ fn one_call<R: Rng>(rng: &mut R, frame: &RhythmFrame, ts: TimeSignature) -> Phra
     Phrase::new(ts, 1, notes)
 }
 
-/// An onset count from 1 to `steps`, uniform except at the two ends: one
-/// lone note has no range or contour, and a bar sounding on every step cannot
-/// be syncopated, so those calls pin other attributes. They stay in the corpus
-/// (the density slider must reach them) but are drawn a third as often, which
-/// keeps the correlation they force small.
+/// Fewest notes in a call. With one note there is no pitch range or contour
+/// at all, and with two both are the same single interval (range = its size,
+/// contour = its size over its time gap), so no slider could move one without
+/// the other. From three notes on a line can widen without climbing (an arch)
+/// or climb without widening, which is what independent sliders need.
+pub const MIN_ONSETS: usize = 3;
+
+/// An onset count from [`MIN_ONSETS`] to `steps`, uniform except that a bar
+/// sounding on every step (which cannot be syncopated, so it pins rhythmic
+/// complexity) is drawn a third as often, keeping the correlation it forces
+/// small. Measures too short for three notes get as many as fit.
 fn draw_onset_count<R: Rng>(rng: &mut R, steps: usize) -> usize {
     const EDGE: f64 = 1.0 / 3.0;
-    let total = (steps - 2) as f64 + 2.0 * EDGE;
-    let mut pick = rng.random::<f64>() * total;
-    if pick < EDGE {
-        return 1;
+    let lowest = MIN_ONSETS.min(steps);
+    if lowest == steps {
+        return steps;
     }
-    pick -= EDGE;
-    let interior = (pick.floor() as usize).min(steps - 2);
-    if interior < steps - 2 {
-        interior + 2
+    // `steps - lowest` interior counts at weight 1, then the full bar.
+    let interior = (steps - lowest) as f64;
+    let pick = rng.random::<f64>() * (interior + EDGE);
+    if pick < interior {
+        lowest + (pick.floor() as usize).min(steps - lowest - 1)
     } else {
         steps
     }
@@ -204,6 +210,23 @@ mod tests {
                 );
             }
         }
+    }
+
+    #[test]
+    fn onset_counts_start_at_three_and_short_measures_get_what_fits() {
+        let mut rng = ChaCha8Rng::seed_from_u64(9);
+        let counts: Vec<usize> = (0..3000).map(|_| draw_onset_count(&mut rng, 16)).collect();
+        for k in MIN_ONSETS..=16 {
+            assert!(counts.contains(&k), "{k} onsets never drawn");
+        }
+        assert!(counts.iter().all(|&k| (MIN_ONSETS..=16).contains(&k)));
+        // A two-sixteenth measure (1/8) holds two notes at most.
+        assert!((0..50).all(|_| draw_onset_count(&mut rng, 2) == 2));
+        let eighth = TimeSignature::new(1, 8).unwrap();
+        assert!(generate_in(eighth, 3, 20)
+            .unwrap()
+            .iter()
+            .all(|p| p.notes.len() == 2));
     }
 
     #[test]
