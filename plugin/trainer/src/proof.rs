@@ -54,10 +54,10 @@ pub const ISSUE_TARGETS: Thresholds = Thresholds {
 /// edited model that gets worse anywhere fails.
 pub const REGRESSION_FLOORS: Thresholds = Thresholds {
     min_spearman: 0.9,
-    // Shipped: range 0.822, contour 0.849, reconstruction 77.1 % (REPORT.md).
-    spearman_floors: &[(Attribute::PitchRange, 0.78), (Attribute::Contour, 0.8)],
+    // Shipped: range 0.807, reconstruction 89.1 % (REPORT.md).
+    spearman_floors: &[(Attribute::PitchRange, 0.78)],
     max_cross_ratio: 0.5,
-    min_reconstruction: 0.75,
+    min_reconstruction: 0.87,
 };
 
 #[derive(Debug, Clone, Serialize)]
@@ -74,13 +74,30 @@ pub struct AxisSweep {
     pub change: Vec<f64>,
     /// `change` divided by the attribute's standard deviation over the prompts.
     pub change_in_deviations: Vec<f64>,
+    /// Mean Spearman ρ with the axis's own attribute for prompts of each
+    /// note-count band in `NOTE_BANDS` (the same ρ as `spearman`, split by
+    /// how many notes the prompt has): shows where a slider is weak.
+    pub own_spearman_by_notes: Vec<f64>,
     /// Hole-guard events over the whole sweep.
     pub holes: HoleReport,
+}
+
+/// Note-count bands for `AxisSweep::own_spearman_by_notes`, inclusive.
+pub const NOTE_BANDS: [(usize, usize); 4] = [(0, 4), (5, 8), (9, 12), (13, 64)];
+
+/// Index of the band holding `notes` notes.
+fn note_band(notes: usize) -> usize {
+    NOTE_BANDS
+        .iter()
+        .position(|&(lo, hi)| (lo..=hi).contains(&notes))
+        .unwrap_or(NOTE_BANDS.len() - 1)
 }
 
 #[derive(Debug, Clone, Serialize)]
 pub struct SteeringReport {
     pub prompts: usize,
+    /// Prompts in each band of `NOTE_BANDS`.
+    pub prompts_by_notes: Vec<usize>,
     pub sweep_points: usize,
     pub axes: Vec<AxisSweep>,
     /// Standard deviation of each attribute over the prompts (the matrix's unit).
@@ -128,9 +145,11 @@ pub fn evaluate(engine: &mut Engine, prompts: &[Phrase], points: usize) -> Resul
             spearman: vec![0.0; attrs.len()],
             change: vec![0.0; attrs.len()],
             change_in_deviations: vec![0.0; attrs.len()],
+            own_spearman_by_notes: vec![0.0; NOTE_BANDS.len()],
             holes: HoleReport::default(),
         })
         .collect();
+    let mut band_counts = [0usize; NOTE_BANDS.len()];
     let mut change_counts = vec![vec![0usize; attrs.len()]; axes.len()];
     let (mut steps_right, mut steps_total, mut exact) = (0usize, 0usize, 0usize);
     let mut kinds_right = 0usize;
@@ -138,6 +157,8 @@ pub fn evaluate(engine: &mut Engine, prompts: &[Phrase], points: usize) -> Resul
     let kind = |t: usize| if t < pitches { 0 } else { t };
     let mask = PitchMask::default();
     for prompt in prompts {
+        let band = note_band(prompt.notes.len());
+        band_counts[band] += 1;
         let prepared = engine.prepare(prompt).map_err(err)?;
         let base = engine.encode(&prepared).map_err(err)?;
         let size = engine.latent_size();
@@ -203,6 +224,9 @@ pub fn evaluate(engine: &mut Engine, prompts: &[Phrase], points: usize) -> Resul
                     0.0
                 };
                 sweep.spearman[c] += rho / prompts.len() as f64;
+                if attrs[c] == sweep.attribute {
+                    sweep.own_spearman_by_notes[band] += rho;
+                }
                 if let (Some(lo), Some(hi)) = (measured[0][c], measured[points - 1][c]) {
                     sweep.change[c] += hi - lo;
                     change_counts[k][c] += 1;
@@ -211,6 +235,9 @@ pub fn evaluate(engine: &mut Engine, prompts: &[Phrase], points: usize) -> Resul
         }
     }
     for (k, sweep) in sweeps.iter_mut().enumerate() {
+        for (b, n) in band_counts.iter().enumerate() {
+            sweep.own_spearman_by_notes[b] /= (*n).max(1) as f64;
+        }
         for c in 0..attrs.len() {
             sweep.change[c] /= change_counts[k][c].max(1) as f64;
             sweep.change_in_deviations[c] = sweep.change[c] / deviations[c];
@@ -218,6 +245,7 @@ pub fn evaluate(engine: &mut Engine, prompts: &[Phrase], points: usize) -> Resul
     }
     Ok(SteeringReport {
         prompts: prompts.len(),
+        prompts_by_notes: band_counts.to_vec(),
         sweep_points: points,
         axes: sweeps,
         deviations,
@@ -340,6 +368,35 @@ impl SteeringReport {
                 a.holes.total()
             ));
         }
+        s.push_str(
+            "\nThe same ρ on each axis's own attribute, split by how many notes the prompt has:\n\n",
+        );
+        let bands: Vec<String> = NOTE_BANDS
+            .iter()
+            .zip(&self.prompts_by_notes)
+            .map(|((lo, hi), n)| {
+                if *lo <= 1 {
+                    format!("≤ {hi} notes ({n} prompts)")
+                } else if *hi >= 64 {
+                    format!("{lo}+ notes ({n} prompts)")
+                } else {
+                    format!("{lo}–{hi} notes ({n} prompts)")
+                }
+            })
+            .collect();
+        s.push_str(&format!(
+            "| axis | {} |\n|---|{}\n",
+            bands.join(" | "),
+            "---|".repeat(bands.len())
+        ));
+        for a in &self.axes {
+            let cells: Vec<String> = a
+                .own_spearman_by_notes
+                .iter()
+                .map(|r| format!("{r:+.3}"))
+                .collect();
+            s.push_str(&format!("| {} | {} |\n", a.label, cells.join(" | ")));
+        }
         s.push_str(&format!(
             "\nAttribute standard deviations over the prompts: {}.\n",
             Attribute::ALL
@@ -355,7 +412,10 @@ impl SteeringReport {
 
 /// Held-out prompts: the corpus generator with a seed training never uses.
 pub const HELD_OUT_SEED: u64 = 0x4E1D_0D7;
-pub const HELD_OUT_PROMPTS: usize = 64;
+/// 256 rather than the 64 used before: one prompt's ρ can be anything from
+/// −1 to 1, and for one model the mean ρ over the first 64 prompts and over
+/// all 256 differed by up to 0.03 (contour 0.849 against 0.871).
+pub const HELD_OUT_PROMPTS: usize = 256;
 /// Slider values per sweep (−1, −0.75, …, +1).
 pub const SWEEP_POINTS: usize = 9;
 
