@@ -332,11 +332,7 @@ impl SteeringReport {
             100.0 * self.exact_prompts
         ));
         s.push_str("Attribute-change matrix (rows: axis swept; columns: mean change of each measured attribute from slider −1 to +1, in standard deviations of that attribute over the prompts; raw change in attribute units in brackets):\n\n");
-        s.push_str(&format!(
-            "| axis (span) | {} |\n|---|{}\n",
-            head.join(" | "),
-            "---|".repeat(head.len())
-        ));
+        s.push_str(&table_head("axis (span)", &head));
         for a in &self.axes {
             let cells: Vec<String> = a
                 .change_in_deviations
@@ -354,11 +350,8 @@ impl SteeringReport {
         s.push_str(
             "\nMean Spearman ρ between slider value and measured attribute (rows: axis swept):\n\n",
         );
-        s.push_str(&format!(
-            "| axis | {} | holes |\n|---|{}---|\n",
-            head.join(" | "),
-            "---|".repeat(head.len())
-        ));
+        let with_holes: Vec<String> = head.iter().cloned().chain(["holes".into()]).collect();
+        s.push_str(&table_head("axis", &with_holes));
         for a in &self.axes {
             let cells: Vec<String> = a.spearman.iter().map(|r| format!("{r:+.3}")).collect();
             s.push_str(&format!(
@@ -384,11 +377,7 @@ impl SteeringReport {
                 }
             })
             .collect();
-        s.push_str(&format!(
-            "| axis | {} |\n|---|{}\n",
-            bands.join(" | "),
-            "---|".repeat(bands.len())
-        ));
+        s.push_str(&table_head("axis", &bands));
         for a in &self.axes {
             let cells: Vec<String> = a
                 .own_spearman_by_notes
@@ -408,6 +397,16 @@ impl SteeringReport {
         ));
         s
     }
+}
+
+/// A Markdown table's header and rule line: `first` over the row labels,
+/// then one column per entry of `columns`.
+fn table_head(first: &str, columns: &[String]) -> String {
+    format!(
+        "| {first} | {} |\n|---|{}\n",
+        columns.join(" | "),
+        "---|".repeat(columns.len())
+    )
 }
 
 /// Held-out prompts: the corpus generator with a seed training never uses.
