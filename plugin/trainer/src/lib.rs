@@ -1,7 +1,7 @@
 //! The demo model's maker: an invented melody corpus (`corpus`), the tensors
-//! it becomes (`dataset`), an MLP VAE in candle (`vae`) trained with the
-//! AR-VAE attribute regularizer (`train`), export to a model package
-//! (`export`), and the steering proof (`proof`).
+//! it becomes (`dataset`), an MLP VAE in candle (`vae`) trained (`train`)
+//! with the AR-VAE attribute regularizer (`regularizer`), export to a model
+//! package (`export`), and the steering proof (`proof`).
 //!
 //! Nothing in the plugin depends on this crate, so building the plugin never
 //! compiles candle.
@@ -11,5 +11,6 @@ pub mod corpus;
 pub mod dataset;
 pub mod export;
 pub mod proof;
+pub mod regularizer;
 pub mod train;
 pub mod vae;

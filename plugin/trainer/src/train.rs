@@ -1,15 +1,9 @@
-//! Training: reconstruction + β·KL + γ·attribute regularization.
-//!
-//! The regularizer is the AR-VAE term of Pati & Lerch, "Attribute-based
-//! regularization of latent spaces for variational auto-encoders" (Neural
-//! Computing and Applications, 2021): for regularized dimension r tied to
-//! attribute a, over all pairs (i, j) of a batch,
-//! mean |tanh(δ·(z_r,i − z_r,j)) − sign(a_i − a_j)|,
-//! which pushes z_r to grow monotonically with a. Pairs where either
-//! attribute is undefined (the contour of a lone note) are left out.
+//! Training: reconstruction + β·KL + γ·attribute regularization (the AR-VAE
+//! term, in `regularizer`).
 
-use crate::contract::{CLASSES, INPUT, LATENT, REGULARIZED, STEPS};
+use crate::contract::{CLASSES, LATENT, REGULARIZED, STEPS};
 use crate::dataset::Dataset;
+use crate::regularizer::pair_term;
 use crate::vae::{scalar, Architecture, Vae};
 use anyhow::Result;
 use candle_core::Tensor;
@@ -123,34 +117,6 @@ pub struct LossParts {
     pub regularizer: [f32; REGULARIZED.len()],
 }
 
-/// Pairwise targets for one batch and one attribute: sign(a_i − a_j) and a
-/// 0/1 mask of pairs where both values are defined.
-fn pair_targets(
-    data: &Dataset,
-    idx: &[u32],
-    r: usize,
-    device: &candle_core::Device,
-) -> Result<(Tensor, Tensor)> {
-    let n = idx.len();
-    let mut sign = vec![0f32; n * n];
-    let mut mask = vec![0f32; n * n];
-    for (i, &a) in idx.iter().enumerate() {
-        for (j, &b) in idx.iter().enumerate() {
-            if let (Some(x), Some(y)) = (
-                data.attributes[a as usize][r],
-                data.attributes[b as usize][r],
-            ) {
-                sign[i * n + j] = (x - y).signum() as f32 * ((x - y).abs() > 1e-9) as u8 as f32;
-                mask[i * n + j] = 1.0;
-            }
-        }
-    }
-    Ok((
-        Tensor::from_vec(sign, (n, n), device)?,
-        Tensor::from_vec(mask, (n, n), device)?,
-    ))
-}
-
 /// Trains a fresh VAE; `progress` sees the averaged losses every `log_every` steps.
 pub fn train(
     cfg: &TrainConfig,
@@ -190,15 +156,19 @@ pub fn train(
             .collect();
         // Batches are copied out of the corpus rows rather than selected from
         // one corpus-sized tensor, so a large corpus is held in memory once.
-        let mut xs = Vec::with_capacity(cfg.batch * INPUT);
+        // An autoencoder's input tokens are its targets; the encoder takes
+        // them as indices into the one-hot row (see `Vae::encode_tokens`).
         let mut ys = Vec::with_capacity(cfg.batch * STEPS);
         for &i in &idx {
-            xs.extend_from_slice(data.input_row(i as usize));
             ys.extend_from_slice(&data.targets[i as usize * STEPS..(i as usize + 1) * STEPS]);
         }
-        let x = Tensor::from_vec(xs, (cfg.batch, INPUT), &device)?;
+        let ids: Vec<u32> = ys
+            .iter()
+            .enumerate()
+            .map(|(k, &t)| (k % STEPS * CLASSES) as u32 + t)
+            .collect();
         let y = Tensor::from_vec(ys, cfg.batch * STEPS, &device)?;
-        let (mu, log_var) = vae.encode(&x)?;
+        let (mu, log_var) = vae.encode_tokens(&ids)?;
         let eps: Vec<f32> = (0..cfg.batch * LATENT)
             .map(|_| noise.sample(StandardNormal))
             .collect();
@@ -211,19 +181,27 @@ pub fn train(
         let kl_dims = ((log_var.exp()? + mu.sqr()? - &log_var)?.affine(0.5, -0.5)?).mean(0)?;
         let kl = kl_dims.sum_all()?;
         let kl_loss = (&kl_dims * &kl_weights)?.sum_all()?;
+        // The regularizer's value and gradient come from `pair_term`; the
+        // loss gets Σ z·g with g held constant, whose gradient with respect
+        // to z is exactly that gradient.
+        let z_reg = z.narrow(1, 0, REGULARIZED.len())?;
+        let z_rows = z_reg.to_vec2::<f32>()?;
         let mut reg_parts = [0f32; REGULARIZED.len()];
-        let mut reg_total = Tensor::zeros((), candle_core::DType::F32, &device)?;
-        for r in 0..REGULARIZED.len() {
-            let zr = z.narrow(1, r, 1)?;
-            let dz = zr.broadcast_sub(&zr.t()?)?;
-            let (sign, mask) = pair_targets(data, &idx, r, &device)?;
-            let pairs = scalar(&mask.sum_all()?)?.max(1.0);
-            let term = (((dz * cfg.delta)?.tanh()? - sign)?.abs()? * &mask)?
-                .sum_all()?
-                .affine(1.0 / pairs as f64, 0.0)?;
-            reg_parts[r] = scalar(&term)?;
-            reg_total = (reg_total + term)?;
+        let mut reg_grad = vec![0f32; cfg.batch * REGULARIZED.len()];
+        for (r, part) in reg_parts.iter_mut().enumerate() {
+            let zr: Vec<f32> = z_rows.iter().map(|row| row[r]).collect();
+            let ar: Vec<Option<f64>> = idx
+                .iter()
+                .map(|&i| data.attributes[i as usize][r])
+                .collect();
+            let term = pair_term(&zr, &ar, cfg.delta as f32);
+            *part = term.loss;
+            for (i, g) in term.grad.into_iter().enumerate() {
+                reg_grad[i * REGULARIZED.len() + r] = g;
+            }
         }
+        let reg_grad = Tensor::from_vec(reg_grad, (cfg.batch, REGULARIZED.len()), &device)?;
+        let reg_total = (z_reg * reg_grad)?.sum_all()?;
         // Hold the learning rate for the first half, then decay it linearly
         // to a tenth: the late, small steps settle the reconstruction.
         let late = (step as f64 / cfg.steps as f64 - 0.5).max(0.0) * 2.0;
