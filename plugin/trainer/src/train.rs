@@ -34,6 +34,13 @@ pub struct TrainConfig {
     pub regularized_beta_scale: f64,
     /// Sharpness δ of tanh in the regularizer.
     pub delta: f64,
+    /// Weight of the steering-consistency term (0 turns it off): codes whose
+    /// regularized dimensions were swapped for another call's are decoded,
+    /// read back by the encoder, and must land on the swapped-in values, so
+    /// the decoder has to follow those dimensions (see `consistency_term`).
+    pub consistency: f64,
+    /// How many rows of each batch get the swap.
+    pub consistency_rows: usize,
     #[serde(skip)]
     pub architecture: Architecture,
 }
@@ -100,6 +107,8 @@ impl Default for TrainConfig {
             gamma: 3.0,
             regularized_beta_scale: 1.0,
             delta: 10.0,
+            consistency: 0.0,
+            consistency_rows: 64,
             architecture: Architecture::default(),
         }
     }
@@ -115,6 +124,44 @@ pub struct LossParts {
     pub kl: f32,
     /// Regularizer per attribute, in `REGULARIZED` order (0 = perfectly ordered, 2 = reversed).
     pub regularizer: [f32; REGULARIZED.len()],
+    /// Steering-consistency term (squared latent units summed over the
+    /// regularized dimensions); 0 when it is off.
+    pub consistency: f32,
+}
+
+/// The steering-consistency term, our addition to the AR-VAE loss. The
+/// regularizer orders the *encoder's* dimensions by attribute but asks
+/// nothing of the decoder, which can rebuild a call from the free
+/// dimensions and ignore a moved slider. Here the first `rows` codes of the
+/// batch get their regularized dimensions replaced by those of the next
+/// `rows` calls' means (attribute values the corpus really has, on other
+/// calls), are decoded, and the decoded measure is encoded again; the loss
+/// is the squared distance of that re-encoding's regularized dimensions
+/// from the swapped-in values. The decoded measure enters the encoder as
+/// the one-hot of its argmax — what a user hears — with the gradient of
+/// the softmax (the straight-through estimator of Bengio, Léonard &
+/// Courville, "Estimating or propagating gradients through stochastic
+/// neurons for conditional computation", arXiv 2013). The code, the
+/// targets and the encoder's weights are held constant here, so only the
+/// decoder learns from this term and the encoder cannot game it.
+fn consistency_term(vae: &Vae, z: &Tensor, mu: &Tensor, rows: usize) -> Result<Tensor> {
+    let r = REGULARIZED.len();
+    let rows = rows.min(z.dim(0)? / 2);
+    let targets = mu.narrow(0, rows, rows)?.narrow(1, 0, r)?.detach();
+    let free = z.narrow(0, 0, rows)?.narrow(1, r, LATENT - r)?.detach();
+    let swapped = Tensor::cat(&[&targets, &free], 1)?;
+    let logits = vae.decode(&swapped)?.reshape((rows, STEPS, CLASSES))?;
+    // `softmax`, not `softmax_last_dim`: the latter has no backward pass.
+    let soft = candle_nn::ops::softmax(&logits, candle_core::D::Minus1)?;
+    let hard = soft.argmax_keepdim(2)?;
+    let hard = Tensor::arange(0u32, CLASSES as u32, &vae.device)?
+        .reshape((1, 1, CLASSES))?
+        .broadcast_eq(&hard)?
+        .to_dtype(soft.dtype())?;
+    let straight_through = (hard + (&soft - soft.detach())?)?.reshape((rows, STEPS * CLASSES))?;
+    let (back, _) = vae.encode_frozen(&straight_through)?;
+    let miss = (back.narrow(1, 0, r)? - targets)?;
+    Ok(miss.sqr()?.sum(1)?.mean_all()?)
 }
 
 /// Trains a fresh VAE; `progress` sees the averaged losses every `log_every` steps.
@@ -207,7 +254,12 @@ pub fn train(
         let late = (step as f64 / cfg.steps as f64 - 0.5).max(0.0) * 2.0;
         opt.set_learning_rate(cfg.learning_rate * (1.0 - 0.9 * late));
         let beta = cfg.beta * ((step + 1) as f64 / cfg.beta_warmup.max(1) as f64).min(1.0);
-        let loss = ((&recon + (&kl_loss * beta)?)? + (reg_total * cfg.gamma)?)?;
+        let mut loss = ((&recon + (&kl_loss * beta)?)? + (reg_total * cfg.gamma)?)?;
+        if cfg.consistency > 0.0 {
+            let term = consistency_term(&vae, &z, &mu, cfg.consistency_rows)?;
+            window.consistency += scalar(&term)?;
+            loss = (loss + (term * cfg.consistency)?)?;
+        }
         opt.backward_step(&loss)?;
 
         window.reconstruction += scalar(&recon)?;
@@ -225,10 +277,43 @@ pub fn train(
                 ..window
             };
             avg.regularizer = window.regularizer.map(|v| v / n);
+            avg.consistency = window.consistency / n;
             progress(&avg);
             window = LossParts::default();
             window_len = 0;
         }
     }
     Ok(vae)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// The consistency term must teach the decoder only: the encoder's
+    /// weights are its measuring stick and get no gradient from it, while
+    /// the decoder's do.
+    #[test]
+    fn consistency_reaches_the_decoder_only() {
+        let vae = Vae::new(&Architecture::default(), 3).unwrap();
+        let rows = 4;
+        let mut rng = ChaCha8Rng::seed_from_u64(5);
+        let tokens: Vec<u32> = (0..2 * rows * STEPS)
+            .map(|k| (k % STEPS * CLASSES) as u32 + rng.random_range(0..CLASSES as u32))
+            .collect();
+        let (mu, _) = vae.encode_tokens(&tokens).unwrap();
+        let term = consistency_term(&vae, &mu, &mu, rows).unwrap();
+        assert!(scalar(&term).unwrap() > 0.0);
+        let grads = term.backward().unwrap();
+        let norm = |v: &candle_core::Var| {
+            grads
+                .get(v.as_tensor())
+                .map(|g| scalar(&g.sqr().unwrap().sum_all().unwrap()).unwrap())
+                .unwrap_or(0.0)
+        };
+        for l in vae.encoder.iter().chain([&vae.mean, &vae.log_variance]) {
+            assert_eq!(norm(&l.weight), 0.0);
+        }
+        assert!(vae.decoder.iter().chain([&vae.logits]).all(|l| norm(&l.weight) > 0.0));
+    }
 }

@@ -148,6 +148,20 @@ impl Vae {
         Ok((self.mean.forward(&h)?, self.log_variance.forward(&h)?))
     }
 
+    /// `encode` with the weights held constant: gradients reach `x` but no
+    /// encoder variable.
+    pub fn encode_frozen(&self, x: &Tensor) -> Result<(Tensor, Tensor)> {
+        let frozen = |l: &Linear, h: &Tensor| -> Result<Tensor> {
+            Ok(h.matmul(&l.weight.as_tensor().detach())?
+                .broadcast_add(&l.bias.as_tensor().detach())?)
+        };
+        let mut h = x.clone();
+        for l in &self.encoder {
+            h = frozen(l, &h)?.relu()?;
+        }
+        Ok((frozen(&self.mean, &h)?, frozen(&self.log_variance, &h)?))
+    }
+
     /// `encode` for training, from the index `step · CLASSES + token` of
     /// each step's 1 in the one-hot row (`STEPS` indices per measure); the
     /// first layer's product is `GatherSum`.

@@ -3,7 +3,8 @@
 //!
 //! usage: train-demo-model [--quick] [--steps N] [--corpus N] [--seed S] [--out DIR]
 //!        [--beta B] [--gamma G] [--delta D] [--lr L] [--batch N] [--warmup N]
-//!        [--regularized-beta-scale F] [--hidden 256,128]
+//!        [--regularized-beta-scale F] [--consistency W] [--consistency-rows N]
+//!        [--hidden 256,128]
 //!        [--encoder-hidden 256,128] [--decoder-hidden 128,256]
 //!        (for experiments;
 //!        the shipped model uses the defaults in `TrainConfig`)
@@ -87,6 +88,10 @@ fn run() -> Result<()> {
             "--regularized-beta-scale" => {
                 cfg.regularized_beta_scale = value("--regularized-beta-scale")?.parse()?
             }
+            "--consistency" => cfg.consistency = value("--consistency")?.parse()?,
+            "--consistency-rows" => {
+                cfg.consistency_rows = value("--consistency-rows")?.parse()?
+            }
             "--warmup" => cfg.beta_warmup = value("--warmup")?.parse()?,
             "--encoder-hidden" => {
                 cfg.architecture.encoder_hidden = value("--encoder-hidden")?
@@ -139,7 +144,7 @@ fn run() -> Result<()> {
     let mut last = None;
     let vae = train(&cfg, &data, log_every, |p| {
         println!(
-            "step {:>6}  reconstruction {:.3}  kl {:.3}  regularizer {}  ({:.0} s)",
+            "step {:>6}  reconstruction {:.3}  kl {:.3}  regularizer {}  consistency {:.3}  ({:.0} s)",
             p.step,
             p.reconstruction,
             p.kl,
@@ -148,6 +153,7 @@ fn run() -> Result<()> {
                 .map(|v| format!("{v:.3}"))
                 .collect::<Vec<_>>()
                 .join(" "),
+            p.consistency,
             train_started.elapsed().as_secs_f64()
         );
         last = Some(*p);
