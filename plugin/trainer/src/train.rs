@@ -203,19 +203,14 @@ pub fn train(
             .collect();
         // Batches are copied out of the corpus rows rather than selected from
         // one corpus-sized tensor, so a large corpus is held in memory once.
-        // An autoencoder's input tokens are its targets; the encoder takes
-        // them as indices into the one-hot row (see `Vae::encode_tokens`).
+        // An autoencoder's input tokens are its targets (see
+        // `Vae::encode_tokens`).
         let mut ys = Vec::with_capacity(cfg.batch * STEPS);
         for &i in &idx {
             ys.extend_from_slice(&data.targets[i as usize * STEPS..(i as usize + 1) * STEPS]);
         }
-        let ids: Vec<u32> = ys
-            .iter()
-            .enumerate()
-            .map(|(k, &t)| (k % STEPS * CLASSES) as u32 + t)
-            .collect();
+        let (mu, log_var) = vae.encode_tokens(&ys)?;
         let y = Tensor::from_vec(ys, cfg.batch * STEPS, &device)?;
-        let (mu, log_var) = vae.encode_tokens(&ids)?;
         let eps: Vec<f32> = (0..cfg.batch * LATENT)
             .map(|_| noise.sample(StandardNormal))
             .collect();
@@ -299,7 +294,7 @@ mod tests {
         let rows = 4;
         let mut rng = ChaCha8Rng::seed_from_u64(5);
         let tokens: Vec<u32> = (0..2 * rows * STEPS)
-            .map(|k| (k % STEPS * CLASSES) as u32 + rng.random_range(0..CLASSES as u32))
+            .map(|_| rng.random_range(0..CLASSES as u32))
             .collect();
         let (mu, _) = vae.encode_tokens(&tokens).unwrap();
         let term = consistency_term(&vae, &mu, &mu, rows).unwrap();

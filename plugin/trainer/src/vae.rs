@@ -162,17 +162,18 @@ impl Vae {
         Ok((frozen(&self.mean, &h)?, frozen(&self.log_variance, &h)?))
     }
 
-    /// `encode` for training, from the index `step · CLASSES + token` of
-    /// each step's 1 in the one-hot row (`STEPS` indices per measure); the
-    /// first layer's product is `GatherSum`.
-    pub fn encode_tokens(&self, ids: &[u32]) -> Result<(Tensor, Tensor)> {
+    /// `encode` for training, from the tokens themselves (`STEPS` per
+    /// measure): the one-hot row's 1 for step k sits at `k · CLASSES +
+    /// token`, so the first layer's product is a sum of gathered weight
+    /// rows (`GatherSum`).
+    pub fn encode_tokens(&self, tokens: &[u32]) -> Result<(Tensor, Tensor)> {
         let (first, rest) = self
             .encoder
             .split_first()
             .context("the encoder has a hidden layer")?;
         let op = GatherSum {
-            ids: ids.to_vec(),
-            batch: ids.len() / STEPS,
+            ids: one_hot_indices(tokens),
+            batch: tokens.len() / STEPS,
         };
         let mut h = first
             .weight
@@ -349,6 +350,16 @@ pub fn scalar(t: &Tensor) -> Result<f32> {
     Ok(t.to_dtype(DType::F32)?.to_scalar::<f32>()?)
 }
 
+/// Where each token's 1 sits in its measure's one-hot row (`STEPS` tokens
+/// per measure, measures back to back).
+pub fn one_hot_indices(tokens: &[u32]) -> Vec<u32> {
+    tokens
+        .iter()
+        .enumerate()
+        .map(|(k, &t)| (k % STEPS * CLASSES) as u32 + t)
+        .collect()
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -363,18 +374,13 @@ mod tests {
         let tokens: Vec<u32> = (0..batch * STEPS)
             .map(|k| ((k * 7 + k / STEPS) % CLASSES) as u32)
             .collect();
-        let ids: Vec<u32> = tokens
-            .iter()
-            .enumerate()
-            .map(|(k, &t)| (k % STEPS * CLASSES) as u32 + t)
-            .collect();
         let mut x = vec![0f32; batch * INPUT];
-        for (k, &id) in ids.iter().enumerate() {
+        for (k, &id) in one_hot_indices(&tokens).iter().enumerate() {
             x[k / STEPS * INPUT + id as usize] = 1.0;
         }
         let x = Tensor::from_vec(x, (batch, INPUT), &vae.device).unwrap();
         let (m1, v1) = vae.encode(&x).unwrap();
-        let (m2, v2) = vae.encode_tokens(&ids).unwrap();
+        let (m2, v2) = vae.encode_tokens(&tokens).unwrap();
         let diff = |a: &Tensor, b: &Tensor| -> f32 {
             (a - b)
                 .unwrap()
