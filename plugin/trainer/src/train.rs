@@ -39,7 +39,8 @@ pub struct TrainConfig {
     /// read back by the encoder, and must land on the swapped-in values, so
     /// the decoder has to follow those dimensions (see `consistency_term`).
     pub consistency: f64,
-    /// How many rows of each batch get the swap.
+    /// How many rows of each batch get the swap. The term starts when the
+    /// KL warm-up ends.
     pub consistency_rows: usize,
     #[serde(skip)]
     pub architecture: Architecture,
@@ -250,7 +251,10 @@ pub fn train(
         opt.set_learning_rate(cfg.learning_rate * (1.0 - 0.9 * late));
         let beta = cfg.beta * ((step + 1) as f64 / cfg.beta_warmup.max(1) as f64).min(1.0);
         let mut loss = ((&recon + (&kl_loss * beta)?)? + (reg_total * cfg.gamma)?)?;
-        if cfg.consistency > 0.0 {
+        // The encoder is the consistency term's measuring stick, and it
+        // measures nothing yet in the first steps: the term waits for the
+        // end of the KL warm-up.
+        if cfg.consistency > 0.0 && step >= cfg.beta_warmup {
             let term = consistency_term(&vae, &z, &mu, cfg.consistency_rows)?;
             window.consistency += scalar(&term)?;
             loss = (loss + (term * cfg.consistency)?)?;
